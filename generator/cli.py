@@ -1,0 +1,56 @@
+"""The ``thermofolio`` command line: one subcommand per module in generator/commands.
+
+Exit codes: 0 success, 1 data errors, 2 usage errors; results go to stdout and
+diagnostics to stderr.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import traceback
+from collections.abc import Sequence
+
+from generator import __version__
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message: str) -> None:  # type: ignore[override]
+        self.print_usage(sys.stderr)
+        sys.stderr.write(f"{self.prog}: error: {message}\n")
+        raise SystemExit(2)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    from generator.commands import build, check, schema
+
+    parser = _Parser(prog="thermofolio", description="A cited, reviewed thermochemical "
+                     "handbook: check the sources, compute, publish.")
+    parser.add_argument("--version", action="version", version=f"thermofolio {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for module in (check, build, schema):
+        module.register(sub)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "run", None):
+        parser.print_help(sys.stderr)
+        return 2
+    try:
+        return int(args.run(args) or 0)
+    except KeyboardInterrupt:
+        sys.stderr.write("thermofolio: interrupted\n")
+        return 130
+    except BrokenPipeError:
+        return 0
+    except Exception as exc:  # a bug, not bad input: say so without a traceback
+        if os.environ.get("THERMOFOLIO_DEBUG"):
+            traceback.print_exc()
+        sys.stderr.write(f"thermofolio: internal error: {type(exc).__name__}: {exc} (this is a "
+                         "bug in thermofolio; set THERMOFOLIO_DEBUG=1 for details and report "
+                         "it)\n")
+        return 3

@@ -1,0 +1,150 @@
+"""Load and validate a handbook folder: sources -> model, with every problem located.
+
+``load_handbook`` reads every file, collects every finding (it never stops at the first),
+then resolves what crosses files: reference keys, duplicate ids, the species named by each
+equation, element and charge balance, and ``combine:`` definitions (Hess's law).
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from generator.diagnostics import Finding, Location, Severity, error
+from generator.load.fields import FileReader
+from generator.load.reactions import RawReaction, read_reaction
+from generator.load.references import read_references_bib, read_references_yaml
+from generator.load.resolve import resolve_reactions
+from generator.load.settings import read_settings
+from generator.load.species import read_species
+from generator.model import Handbook, Reference, Species
+from generator.yamlsource import read_yaml_file
+
+__all__ = ["load_handbook", "display_path"]
+
+
+def display_path(file: Path) -> str:
+    """The path as a person would type it: relative to the working folder when inside it."""
+    try:
+        rel = os.path.relpath(file)
+    except ValueError:
+        return str(file)
+    return str(file) if rel.startswith("..") else rel
+
+
+def _yaml_files(folder: Path) -> list[Path]:
+    if not folder.is_dir():
+        return []
+    return sorted(p for p in folder.iterdir() if p.suffix in (".yaml", ".yml") and p.is_file())
+
+
+def load_handbook(root: Path) -> tuple[Handbook | None, list[Finding]]:
+    """Read and check every source file under ``root``; the handbook is None on any error."""
+    findings: list[Finding] = []
+    root = Path(root)
+    if not root.is_dir():
+        return None, [error("no-sources", f"no handbook folder at '{display_path(root)}'",
+                            hint="run from the repository root or name the sources folder")]
+
+    settings = None
+    hb_file = root / "handbook.yaml"
+    if not hb_file.is_file():
+        findings.append(error("missing-file", "handbook.yaml is missing",
+                              Location(display_path(hb_file)),
+                              hint="create it with title, edition and organisation"))
+    else:
+        doc, fs = read_yaml_file(hb_file, display_path(hb_file))
+        findings += fs
+        if doc is not None or not fs:
+            settings = read_settings(FileReader(display_path(hb_file), findings), doc)
+
+    references: dict[str, Reference] = {}
+    ref_sources: list[list[Reference]] = []
+    ref_file = root / "references.yaml"
+    if ref_file.is_file():
+        doc, fs = read_yaml_file(ref_file, display_path(ref_file))
+        findings += fs
+        ref_sources.append(read_references_yaml(FileReader(display_path(ref_file), findings),
+                                                doc))
+    bib_file = root / "references.bib"
+    if bib_file.is_file():
+        ref_sources.append(read_references_bib(FileReader(display_path(bib_file), findings),
+                                               bib_file))
+    for refs in ref_sources:
+        for ref in refs:
+            if ref.key in references:
+                first = references[ref.key].location
+                findings.append(error("duplicate-id", f"duplicate reference key '{ref.key}' "
+                                      f"(first at {first})", ref.location))
+            else:
+                references[ref.key] = ref
+
+    species: dict[str, Species] = {}
+    for file in _yaml_files(root / "species"):
+        path = display_path(file)
+        doc, fs = read_yaml_file(file, path)
+        findings += fs
+        if doc is None and fs:
+            continue
+        sp = read_species(FileReader(path, findings), doc)
+        if sp is None:
+            continue
+        if sp.id in species:
+            findings.append(error("duplicate-id", f"duplicate species id '{sp.id}' (first in "
+                                  f"{species[sp.id].path})", sp.location,
+                                  hint="ids must be unique across the handbook"))
+            continue
+        species[sp.id] = sp
+
+    raw_reactions: dict[str, RawReaction] = {}
+    for file in _yaml_files(root / "reactions"):
+        path = display_path(file)
+        doc, fs = read_yaml_file(file, path)
+        findings += fs
+        if doc is None and fs:
+            continue
+        rx = read_reaction(FileReader(path, findings), doc)
+        if rx is None:
+            continue
+        if rx.id in raw_reactions:
+            findings.append(error("duplicate-id", f"duplicate reaction id '{rx.id}' (first in "
+                                  f"{raw_reactions[rx.id].path})", rx.location,
+                                  hint="ids must be unique across the handbook"))
+            continue
+        raw_reactions[rx.id] = rx
+
+    reactions = resolve_reactions(raw_reactions, species, findings)
+    _check_reference_keys(references, species, reactions, findings)
+
+    if settings is None or any(f.severity is Severity.ERROR for f in findings):
+        return None, findings
+    handbook = Handbook(
+        root=str(root),
+        settings=settings,
+        references=dict(sorted(references.items())),
+        species=dict(sorted(species.items())),
+        reactions=dict(sorted(reactions.items())),
+    )
+    return handbook, findings
+
+
+def _check_reference_keys(references, species, reactions, findings: list[Finding]) -> None:
+    from generator.load.fields import did_you_mean
+
+    keys = tuple(references)
+
+    def check(ref: str | None, loc: Location | None) -> None:
+        if ref is None or ref in references:
+            return
+        findings.append(error("unknown-reference", f"unknown reference key '{ref}'", loc,
+                              hint=did_you_mean(ref, keys) or "add it to references.yaml"))
+
+    for sp in species.values():
+        for q in sp.standard.values():
+            for v in q.values:
+                check(v.ref, v.location)
+        for p in sp.cp:
+            check(p.ref, p.location)
+    for rx in reactions.values():
+        for m in rx.measured:
+            check(m.value.ref, m.location)

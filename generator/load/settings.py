@@ -1,0 +1,72 @@
+"""Reading handbook.yaml."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from generator.caution import CAUTION
+from generator.diagnostics import Location
+from generator.load.fields import FileReader
+from generator.model import DEFAULT_TOLERANCES, Settings
+from generator.source_schema import HANDBOOK_FIELDS
+from generator.units import UnitError, parse_pressure
+from generator.yamlsource import YList
+
+
+def read_settings(r: FileReader, doc: Any) -> Settings | None:
+    m = r.mapping(doc, Location(r.path, 1, 1), "handbook.yaml")
+    if m is None:
+        return None
+    r.check_fields(m, HANDBOOK_FIELDS, "handbook.yaml")
+    title = r.string(m, "title", "the handbook")
+    edition = r.string(m, "edition", "the handbook")
+    organisation = r.string(m, "organisation", "the handbook")
+    pressure = 1.0e5
+    if "standard_pressure" in m:
+        try:
+            pressure = parse_pressure(m["standard_pressure"])
+        except UnitError as exc:
+            r.error("wrong-unit", f"standard_pressure: {exc.message}",
+                    m.where("standard_pressure"), exc.hint)
+    temps: tuple[float, ...] = Settings.__dataclass_fields__["temperatures"].default
+    if "temperatures" in m:
+        raw = m["temperatures"]
+        if not isinstance(raw, YList) or not raw:
+            r.error("type", "'temperatures' must be a list of temperatures in K",
+                    m.where("temperatures"))
+        else:
+            vals = [r.number_value(t, raw.where(i), "a grid temperature", positive=True)
+                    for i, t in enumerate(raw)]
+            if all(v is not None for v in vals):
+                temps = tuple(sorted(set(vals)))  # type: ignore[arg-type]
+    tolerances = dict(DEFAULT_TOLERANCES)
+    if "tolerances" in m:
+        tm = r.mapping(m["tolerances"], m.where("tolerances"), "'tolerances'")
+        if tm is not None:
+            r.check_fields(tm, {k: (False, {}, "") for k in DEFAULT_TOLERANCES}, "'tolerances'")
+            for key in tm:
+                if key in DEFAULT_TOLERANCES:
+                    v = r.number(tm, key, "'tolerances'", positive=True)
+                    if v is not None:
+                        tolerances[key] = v
+    units = {}
+    if "units" in m:
+        um = r.mapping(m["units"], m.where("units"), "'units'")
+        units = {str(k): str(v) for k, v in (um or {}).items()}
+    interval = m.get("review_interval_days", 365)
+    if isinstance(interval, bool) or not isinstance(interval, int) or interval < 1:
+        r.error("type", "'review_interval_days' must be a whole number of days",
+                m.where("review_interval_days"))
+        interval = 365
+    adiabatic = r.number(m, "adiabatic_caution_K", "the handbook", 200.0, positive=True)
+    if title is None or edition is None or organisation is None:
+        return None
+    return Settings(
+        title=title, edition=edition, organisation=organisation, standard_pressure=pressure,
+        temperatures=temps, units=units,
+        caution=r.string(m, "caution", "the handbook", CAUTION) or CAUTION,
+        tolerances=tolerances, review_interval_days=interval,
+        adiabatic_caution_K=adiabatic if adiabatic and math.isfinite(adiabatic) else 200.0,
+        location=Location(r.path, 1, 1),
+    )
