@@ -1,0 +1,44 @@
+"""Chart drawing: frozen chart specs in, deterministic accessible SVG bytes out.
+
+Importing this package does not import matplotlib; only ``render_svg``/``render_many`` do.
+"""
+
+from generator.charts.draw import chart_id, render_many, render_svg
+from generator.charts.specs import (
+    ARROW_KINDS,
+    ZERO_LEVEL,
+    Arrow,
+    ChartSpec,
+    EntropyLevelSpec,
+    GibbsChartSpec,
+    Level,
+    LevelDiagramSpec,
+    LineChartSpec,
+    MarkedPoint,
+    Series,
+    ShadedRange,
+    VantHoffSpec,
+    spec_digest,
+)
+from generator.charts.style import STYLE_VERSION
+
+__all__ = [
+    "ARROW_KINDS",
+    "STYLE_VERSION",
+    "ZERO_LEVEL",
+    "Arrow",
+    "ChartSpec",
+    "EntropyLevelSpec",
+    "GibbsChartSpec",
+    "Level",
+    "LevelDiagramSpec",
+    "LineChartSpec",
+    "MarkedPoint",
+    "Series",
+    "ShadedRange",
+    "VantHoffSpec",
+    "chart_id",
+    "render_many",
+    "render_svg",
+    "spec_digest",
+]
