@@ -20,6 +20,7 @@ def check_handbook(root: Path) -> tuple[Handbook | None, list[Finding]]:
     handbook, findings = load_handbook(root)
     if handbook is None:
         return None, findings
-    from generator.findings import engine_findings
+    from generator.compute import compute_handbook
 
-    return handbook, findings + engine_findings(handbook)
+    computed = compute_handbook(handbook)
+    return handbook, findings + list(computed.findings)

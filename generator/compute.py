@@ -1,0 +1,175 @@
+"""Compute stage: every number the handbook publishes, evaluated once from the model.
+
+``compute_handbook`` converts values to the standard pressure, resolves the element
+reference states, evaluates every species and reaction on the handbook's grid (and on a
+fine grid for the charts), finds the crossovers and runs the consistency checks.  Pure:
+no file, template or chart access.  Render only formats what this produced.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+
+from generator.diagnostics import Finding
+from generator.model import Handbook, Reaction, Species
+from generator.thermo.constants import T_REF
+from generator.thermo.reactions import (
+    ReactionFunctions,
+    character,
+    covered_range,
+    crossover_temperatures,
+    hess_sum,
+    reaction_functions,
+)
+from generator.thermo.reference_states import resolve_reference_states
+from generator.thermo.species_props import (
+    FormationFunctions,
+    SpeciesFunctions,
+    formation_functions,
+    species_functions,
+)
+from generator.thermo.standard_state import to_standard_pressure
+
+CHART_POINTS = 120  # points of a smooth curve on a chart
+
+
+@dataclass(frozen=True, eq=False)
+class SpeciesResult:
+    species: Species
+    grid: SpeciesFunctions  # on the handbook's temperature grid
+    formation: FormationFunctions  # on the grid
+    curve: SpeciesFunctions  # on a fine grid over the covered range, for charts
+    reactions: tuple[str, ...]  # ids of the reactions that use it
+    atomization: float | None  # kJ/mol, when all gaseous atoms are in the handbook
+    atoms: tuple[tuple[str, str, float], ...]  # (element, atom species id, count)
+
+
+@dataclass(frozen=True, eq=False)
+class MeasuredCheck:
+    quantity: str
+    T: float
+    measured: float
+    computed: float
+    gap: float
+    u_combined: float | None
+    ref: str | None
+
+
+@dataclass(frozen=True, eq=False)
+class ReactionResult:
+    reaction: Reaction
+    nu: Mapping[str, float]
+    grid: ReactionFunctions
+    curve: ReactionFunctions  # fine grid (covered range widened to the handbook grid)
+    crossover_T: tuple[float, ...]
+    character: Mapping[str, str]  # at 298.15 K
+    steps: tuple[tuple[float, str], ...]  # combine: (factor, reaction id)
+    hess_total: Mapping[str, np.ndarray] | None  # sum of the steps on the grid
+    checks: tuple[MeasuredCheck, ...]
+
+
+@dataclass(frozen=True, eq=False)
+class Computed:
+    handbook: Handbook  # values moved to the standard pressure
+    element_refs: Mapping[str, Species]
+    species: Mapping[str, SpeciesResult]
+    reactions: Mapping[str, ReactionResult]
+    findings: tuple[Finding, ...]
+
+
+def chart_grid(lo: float, hi: float) -> np.ndarray:
+    return np.linspace(lo, hi, CHART_POINTS)
+
+
+def _atoms(sp: Species, handbook: Handbook) -> tuple[tuple[str, str, float], ...] | None:
+    """Gaseous-atom species for each element of ``sp``, or None if one is missing."""
+    out = []
+    for el, n in sp.elements:
+        atom = next((s for s in handbook.species.values() if s.phase == "g" and s.charge == 0
+                     and s.elements == ((el, 1),)), None)
+        if atom is None or atom.id == sp.id:
+            return None
+        out.append((el, atom.id, float(n)))
+    return tuple(out)
+
+
+def _atomization(sp: Species, atoms, handbook: Handbook) -> float | None:
+    if not atoms or "dfH" not in sp.standard:
+        return None
+    total = -sp.standard["dfH"].preferred.value
+    for _el, aid, n in atoms:
+        a = handbook.species[aid].standard.get("dfH")
+        if a is None:
+            return None
+        total += n * a.preferred.value
+    return total
+
+
+def evaluate_reaction(nu: Mapping[str, float], species: Mapping[str, Species],
+                      grid: np.ndarray, electrons: int | None
+                      ) -> tuple[ReactionFunctions, ReactionFunctions, tuple[float, ...]]:
+    """Grid values, a smooth curve for the charts and the crossovers of one reaction."""
+    on_grid = reaction_functions(nu, species, grid, electrons)
+    covered = covered_range(nu, species)
+    curve = reaction_functions(nu, species, chart_grid(float(min(grid)), float(max(grid))),
+                               electrons)
+    crossings = tuple(crossover_temperatures(nu, species, *covered)) if covered else ()
+    return on_grid, curve, crossings
+
+
+def compute_handbook(handbook: Handbook) -> Computed:
+    from generator.findings import engine_checks
+
+    element_refs, ref_findings = resolve_reference_states(handbook.species)
+    hb = to_standard_pressure(handbook, element_refs)
+    grid = np.asarray(hb.settings.temperatures, dtype=float)
+    users: dict[str, list[str]] = {}
+    for rid, rx in hb.reactions.items():
+        for sid in rx.stoichiometry:
+            users.setdefault(sid, []).append(rid)
+
+    species: dict[str, SpeciesResult] = {}
+    for sid, sp in hb.species.items():
+        fine = chart_grid(sp.Tmin, sp.Tmax) if sp.cp else np.array([T_REF])
+        atoms = _atoms(sp, hb)
+        species[sid] = SpeciesResult(
+            species=sp,
+            grid=species_functions(sp, grid),
+            formation=formation_functions(sp, element_refs, grid),
+            curve=species_functions(sp, fine),
+            reactions=tuple(sorted(users.get(sid, ()))),
+            atomization=_atomization(sp, atoms, hb),
+            atoms=atoms or (),
+        )
+
+    reactions: dict[str, ReactionResult] = {}
+    for rid, rx in hb.reactions.items():
+        nu = rx.stoichiometry
+        on_grid, curve, crossings = evaluate_reaction(nu, hb.species, grid, rx.electrons)
+        hess_total = None
+        if rx.combine:
+            parts = [(s.factor, reaction_functions(hb.reactions[s.reaction].stoichiometry,
+                                                   hb.species, grid)) for s in rx.combine]
+            hess_total = hess_sum(parts)
+        at298 = reaction_functions(nu, hb.species, [T_REF])
+        reactions[rid] = ReactionResult(
+            reaction=rx, nu=nu, grid=on_grid, curve=curve, crossover_T=crossings,
+            character=character(float(at298.drH[0]), float(at298.drS[0]),
+                                float(at298.drG[0])),
+            steps=tuple((s.factor, s.reaction) for s in rx.combine),
+            hess_total=hess_total,
+            checks=(),
+        )
+    computed = Computed(hb, element_refs, species, reactions, ())
+    checks, findings = engine_checks(computed)
+    reactions = {rid: _with_checks(r, checks.get(rid, ())) for rid, r in reactions.items()}
+    return Computed(hb, element_refs, species, reactions, tuple(ref_findings + findings))
+
+
+def _with_checks(r: ReactionResult, checks) -> ReactionResult:
+    from dataclasses import replace
+
+    return replace(r, checks=tuple(checks))
