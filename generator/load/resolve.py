@@ -23,9 +23,27 @@ def _index(species: dict[str, Species]) -> dict[tuple, list[Species]]:
     return idx
 
 
-def _resolve_term(term: EquationTerm, rx: RawReaction, species: dict[str, Species],
+def resolve_equation(parsed, species: dict[str, Species], where: Location,
+                     findings: list[Finding]) -> tuple[list[Term], list[Term]] | None:
+    """Resolve the terms of a parsed equation written at ``where`` (e.g. on a command line)
+    and check its balance; None (with findings) when it cannot be used."""
+    idx = _index(species)
+    left = [_resolve_term(t, where, species, idx, findings) for t in parsed.reactants]
+    right = [_resolve_term(t, where, species, idx, findings) for t in parsed.products]
+    if any(t is None for t in left + right):
+        return None
+    diff = _balance(_net(left, right), species)  # type: ignore[arg-type]
+    if diff:
+        findings.append(error("unbalanced", f"reaction is not balanced: "
+                              f"{describe_imbalance(diff)}", where,
+                              hint="check the coefficients and formulas"))
+        return None
+    return left, right  # type: ignore[return-value]
+
+
+def _resolve_term(term: EquationTerm, where: Location | None, species: dict[str, Species],
                   idx: dict[tuple, list[Species]], findings: list[Finding]) -> Term | None:
-    loc = rx.equation_loc.shifted(term.col - 1) if rx.equation_loc else rx.location
+    loc = where.shifted(term.col - 1) if where else None
     if term.species_id is not None:
         if term.species_id not in species:
             findings.append(error("unknown-species", f"no species with id '{term.species_id}'",
@@ -97,8 +115,9 @@ def resolve_reactions(raw: dict[str, RawReaction], species: dict[str, Species],
     for rid, rx in raw.items():
         if rx.parsed is None:
             continue
-        left = [_resolve_term(t, rx, species, idx, findings) for t in rx.parsed.reactants]
-        right = [_resolve_term(t, rx, species, idx, findings) for t in rx.parsed.products]
+        where = rx.equation_loc or rx.location
+        left = [_resolve_term(t, where, species, idx, findings) for t in rx.parsed.reactants]
+        right = [_resolve_term(t, where, species, idx, findings) for t in rx.parsed.products]
         if any(t is None for t in left + right):
             continue
         nu = _net(left, right)  # type: ignore[arg-type]

@@ -51,6 +51,16 @@ class ReactionFunctions:
     covered: tuple[float, float] | None
 
 
+def _exact_zero_dfH(sp: Species) -> bool:
+    """An element in its reference state (or H+(aq)) has dfH = 0 by definition: exact."""
+    q = sp.standard.get("dfH")
+    if q is None or q.preferred.value != 0.0:
+        return False
+    single_element = len(sp.elements) == 1 and sp.charge == 0
+    proton = sp.elements == (("H", 1),) and sp.charge == 1 and sp.phase == "aq"
+    return single_element or proton
+
+
 def gas_change(nu: Mapping[str, float], species: Mapping[str, Species]) -> float:
     """dn(gas): the change in moles of gas-phase species."""
     return float(sum(n for sid, n in nu.items() if species[sid].phase == "g"))
@@ -85,7 +95,7 @@ def reaction_functions(nu: Mapping[str, float], species: Mapping[str, Species],
         drCp = drCp + n * f.Cp
         extrap |= np.asarray(f.extrapolated, dtype=bool)
         nus.append(n)
-        u_H.append(f.u_dfH)
+        u_H.append(0.0 if _exact_zero_dfH(species[sid]) else f.u_dfH)
         u_S.append(f.u_S)
     drG = drH - Tf * drS / 1000.0
     with np.errstate(over="ignore"):
@@ -131,6 +141,8 @@ def crossover_temperatures(nu: Mapping[str, float], species: Mapping[str, Specie
     grid = np.linspace(lo, hi, CROSSOVER_GRID)
     g = drG(grid)
     roots: list[float] = []
+    if np.all(np.abs(g) < 1e-12):
+        return roots  # identically zero: at equilibrium everywhere, no crossover to report
     for i in range(len(grid) - 1):
         a, b, ga, gb = grid[i], grid[i + 1], g[i], g[i + 1]
         if not (np.isfinite(ga) and np.isfinite(gb)):
@@ -162,6 +174,10 @@ def character(drH: float, drS: float, drG: float) -> dict[str, str]:
         else "entropy unchanged",
     }
     h_favours, s_favours = drH < 0, drS > 0
+    if (drH == 0) != (drS == 0):
+        term = "entropy" if drH == 0 else "enthalpy"
+        words["driver"] = f"only the {term} term acts"
+        return words
     if drG < 0:
         driver = ("favoured by both the enthalpy and the entropy term" if h_favours and s_favours
                   else "enthalpy-driven; the entropy term opposes" if h_favours

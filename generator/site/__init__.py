@@ -1,0 +1,1 @@
+"""Site stage: computed results in, the static handbook pages and their charts out."""
