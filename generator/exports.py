@@ -51,9 +51,18 @@ def reaction_rows(f: ReactionFunctions) -> list[dict]:
             "Etn": None if f.Etn is None else num(f.Etn[i]),
             "u": {"drH": num(f.u_drH[i]), "drS": num(f.u_drS[i]), "drG": num(f.u_drG[i]),
                   "log10K": num(f.u_log10K[i])},
+            "K_range": k_range(f.log10K[i], f.u_log10K[i]),
             "extrapolated": bool(f.extrapolated[i]),
         })
     return rows
+
+
+def k_range(log10K: float, u_log10K: float) -> list[float | None] | None:
+    """K at log10 K ± u(log10 K), the standard-uncertainty range of K (null where unknown)."""
+    if not (math.isfinite(log10K) and math.isfinite(u_log10K)):
+        return None
+    lo, hi = log10K - u_log10K, log10K + u_log10K
+    return [num(10.0 ** lo) if lo < 308 else None, num(10.0 ** hi) if hi < 308 else None]
 
 
 def reaction_json(equation: str, f: ReactionFunctions, crossover_T: Sequence[float],

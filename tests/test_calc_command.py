@@ -13,7 +13,7 @@ from generator.cli import main
 
 DEMO = REPO / "sources"
 ROW_KEYS = {"T", "drH", "drS", "drG", "drCp", "drU", "TdrS", "K", "log10K", "E", "Etn", "u",
-            "extrapolated"}
+            "K_range", "extrapolated"}
 DEMO_REACTIONS = sorted(p.stem for p in (DEMO / "reactions").glob("*.yaml"))
 
 
@@ -56,6 +56,16 @@ def test_text_output_has_table_crossover_and_caution(capsys):
                  "1000:1200:100"]) == 0
     out = capsys.readouterr().out
     assert "ΔrG° = 0 at" in out and "CAUTION:" in out and "1100.00" in out
+
+
+def test_K_carries_its_uncertainty_range(capsys):
+    main(["calc", "water-atomization", "--sources", str(DEMO), "-T", "3000", "--json"])
+    row = json.loads(capsys.readouterr().out)["rows"][0]
+    lo, hi = row["K_range"]
+    # K range is 10**(log10K -/+ u(log10K)) by definition (GUM standard uncertainty).
+    assert lo == pytest.approx(10 ** (row["log10K"] - row["u"]["log10K"]), rel=1e-6)
+    assert hi == pytest.approx(10 ** (row["log10K"] + row["u"]["log10K"]), rel=1e-6)
+    assert lo < row["K"] < hi
 
 
 def test_bad_equation_is_located(capsys):

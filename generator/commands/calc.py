@@ -143,7 +143,7 @@ def text_report(equation, f, crossings, findings, electrons) -> str:
     cols = [("T/K", f.T, "{:.2f}"), ("ΔrH°", f.drH, "{:.3f}"), ("±", f.u_drH, "{:.3f}"),
             ("ΔrS°", f.drS, "{:.3f}"), ("ΔrG°", f.drG, "{:.3f}"), ("±", f.u_drG, "{:.3f}"),
             ("ΔrCp°", f.drCp, "{:.3f}"), ("ΔrU°", f.drU, "{:.3f}"), ("T·ΔrS°", f.TdrS, "{:.3f}"),
-            ("log10 K", f.log10K, "{:.4f}"), ("K", f.K, "{:.4e}")]
+            ("log10 K", f.log10K, "{:.4f}"), ("±", f.u_log10K, "{:.4f}"), ("K", f.K, "{:.4e}")]
     if electrons:
         cols += [("E°/V", f.E, "{:.4f}"), ("Etn/V", f.Etn, "{:.4f}")]
     table = [[name for name, _a, _f in cols]]
@@ -155,7 +155,8 @@ def text_report(equation, f, crossings, findings, electrons) -> str:
     widths = [max(len(r[j]) for r in table) for j in range(len(cols))]
     lines = [f"reaction: {equation}",
              "units: ΔrH°, ΔrG°, ΔrU°, T·ΔrS° kJ/mol; ΔrS°, ΔrCp° J/(mol·K); ± standard "
-             "uncertainty (GUM)", ""]
+             "uncertainty (GUM); K lies within 10^(log10 K ± u) at one standard uncertainty; "
+             "— where unknown", ""]
     lines += ["  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in table]
     if f.extrapolated.any():
         lines.append("* extrapolated beyond the species' Cp data")

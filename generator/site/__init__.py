@@ -1,1 +1,5 @@
-"""Site stage: computed results in, the static handbook pages and their charts out."""
+"""The static offline HTML handbook: page contexts, templates, charts, exports, atomic write."""
+
+from generator.site.publish import publish
+
+__all__ = ["publish"]

@@ -1,0 +1,43 @@
+"""Where the templates and static assets live, and the jinja2 environment that renders them.
+
+The wheel places ``site_templates`` inside the package (``generator/site_templates``, see the
+force-include in pyproject.toml); an editable install reads ``<repo>/site_templates``.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import jinja2
+
+import generator
+
+ASSET_NAMES: tuple[str, ...] = ("print.css", "site.css", "site.js")
+
+
+def templates_dir() -> Path:
+    """The first of ``generator/site_templates`` and ``<repo>/site_templates`` that exists."""
+    package = Path(generator.__file__).resolve().parent
+    for candidate in (package / "site_templates", package.parent / "site_templates"):
+        if (candidate / "base.html").is_file():
+            return candidate
+    raise FileNotFoundError(f"no site templates in {package / 'site_templates'} or "
+                            f"{package.parent / 'site_templates'}")
+
+
+def environment(folder: Path | None = None) -> jinja2.Environment:
+    """Autoescaping, strict jinja2 environment over the template folder."""
+    return jinja2.Environment(
+        loader=jinja2.FileSystemLoader(str(folder or templates_dir())),
+        autoescape=True,
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+        keep_trailing_newline=True,
+    )
+
+
+def static_assets(folder: Path | None = None) -> dict[str, bytes]:
+    """The stylesheets and the script, keyed by their path in the site (``assets/...``)."""
+    base = (folder or templates_dir()) / "assets"
+    return {f"assets/{name}": (base / name).read_bytes() for name in ASSET_NAMES}

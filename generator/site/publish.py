@@ -1,0 +1,1 @@
+def publish(*a): raise NotImplementedError
