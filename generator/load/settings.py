@@ -50,10 +50,7 @@ def read_settings(r: FileReader, doc: Any) -> Settings | None:
                     v = r.number(tm, key, "'tolerances'", positive=True)
                     if v is not None:
                         tolerances[key] = v
-    units = {}
-    if "units" in m:
-        um = r.mapping(m["units"], m.where("units"), "'units'")
-        units = {str(k): str(v) for k, v in (um or {}).items()}
+    units = _read_display_units(r, m)
     interval = m.get("review_interval_days", 365)
     if isinstance(interval, bool) or not isinstance(interval, int) or interval < 1:
         r.error("type", "'review_interval_days' must be a whole number of days",
@@ -70,3 +67,40 @@ def read_settings(r: FileReader, doc: Any) -> Settings | None:
         adiabatic_caution_K=adiabatic if adiabatic and math.isfinite(adiabatic) else 200.0,
         location=Location(r.path, 1, 1),
     )
+
+
+_DISPLAY = {"energy": "energy", "entropy": "entropy", "pressure": "pressure"}
+
+
+def _read_display_units(r: FileReader, m) -> dict[str, str]:
+    """Display units by dimension, each checked to be a unit of that dimension."""
+    from generator.units import to_canonical_factor
+
+    if "units" not in m:
+        return {}
+    um = r.mapping(m["units"], m.where("units"), "'units'")
+    if um is None:
+        return {}
+    units: dict[str, str] = {}
+    for key, value in um.items():
+        if key == "temperature":
+            if value != "K":
+                r.error("wrong-unit", "display temperatures are in K", um.where(key))
+            continue
+        if key not in _DISPLAY:
+            from generator.load.fields import did_you_mean
+
+            r.error("unknown-field", f"unknown display unit '{key}'", um.key_where(key),
+                    did_you_mean(key, (*_DISPLAY, "temperature")) or
+                    "known: energy, entropy, pressure, temperature")
+            continue
+        if not isinstance(value, str):
+            r.error("type", f"display unit '{key}' must be text", um.where(key))
+            continue
+        try:
+            to_canonical_factor(value, _DISPLAY[key])
+        except UnitError as exc:
+            r.error("wrong-unit", f"display unit {key}: {exc.message}", um.where(key), exc.hint)
+            continue
+        units[key] = value
+    return units
