@@ -16,6 +16,7 @@ from pathlib import Path
 from typing import Any
 
 import yaml
+import yaml.reader
 from yaml.composer import Composer
 from yaml.events import AliasEvent
 from yaml.nodes import MappingNode, Node, ScalarNode, SequenceNode
@@ -208,11 +209,23 @@ class _Builder:
         return out
 
 
+def _reader_error(exc: yaml.reader.ReaderError, text: str, path: str) -> Finding:
+    line = text[: exc.position].count("\n") + 1
+    col = exc.position - (text.rfind("\n", 0, exc.position) + 1) + 1
+    return error("yaml-syntax", f"character U+{exc.character:04X} is not allowed in YAML",
+                 Location(path, line, col), hint="remove the control character")
+
+
 def parse_yaml_text(text: str, path: str) -> tuple[Any, list[Finding]]:
     """Compose and build one YAML document; returns (value or None, findings)."""
-    loader = _StrictLoader(text)
+    try:
+        loader = _StrictLoader(text)
+    except yaml.reader.ReaderError as exc:
+        return None, [_reader_error(exc, text, path)]
     try:
         node = loader.get_single_node()
+    except yaml.reader.ReaderError as exc:
+        return None, [_reader_error(exc, text, path)]
     except YamlRefused as exc:
         return None, [error(exc.code, exc.message, _loc(path, exc.mark), hint=exc.hint)]
     except yaml.MarkedYAMLError as exc:
