@@ -10,8 +10,8 @@ import time
 from pathlib import Path
 
 import pytest
-from conftest import BAD, assemble
 
+from conftest import BAD, assemble
 from generator.cli import main
 from generator.diagnostics import Severity
 from generator.load import load_handbook

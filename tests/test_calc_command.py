@@ -6,8 +6,8 @@ import json
 from pathlib import Path
 
 import pytest
-from conftest import REPO
 
+from conftest import REPO
 from generator.caution import CAUTION
 from generator.cli import main
 

@@ -8,7 +8,6 @@ import sys
 from pathlib import Path
 
 from conftest import BAD, assemble
-
 from generator.cli import main
 
 

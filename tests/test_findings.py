@@ -5,8 +5,8 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
-from conftest import assemble
 
+from conftest import assemble
 from generator.compute import compute_handbook
 from generator.load import load_handbook
 

@@ -8,8 +8,8 @@ from pathlib import Path
 
 import jsonschema
 import yaml
-from conftest import REPO, assemble
 
+from conftest import REPO, assemble
 from generator.cli import main
 from generator.load import load_handbook
 from generator.units import UnitError, parse_compact, parse_pressure, to_canonical_factor
