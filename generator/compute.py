@@ -85,7 +85,10 @@ def chart_grid(lo: float, hi: float) -> np.ndarray:
 
 
 def _atoms(sp: Species, handbook: Handbook) -> tuple[tuple[str, str, float], ...] | None:
-    """Gaseous-atom species for each element of ``sp``, or None if one is missing."""
+    """Gaseous-atom species for each element of ``sp``, or None if one is missing (or
+    ``sp`` is an ion: taking it apart into neutral atoms does not balance its charge)."""
+    if sp.charge:
+        return None
     out = []
     for el, n in sp.elements:
         atom = next((s for s in handbook.species.values() if s.phase == "g" and s.charge == 0
