@@ -23,18 +23,26 @@ def register(sub) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    return build_site(Path(args.sources), Path(args.output), quiet=args.quiet, args=args)
+
+
+def build_site(sources: Path, output: Path, quiet: bool = False,
+               args: argparse.Namespace | None = None) -> int:
+    """Check the sources and publish the site; problems go to stderr; the exit code."""
     start = time.perf_counter()
-    handbook, findings = check_handbook(Path(args.sources))
+    if args is None:
+        args = argparse.Namespace(sources=str(sources), output=str(output), quiet=quiet)
+    handbook, findings = check_handbook(sources)
     findings = sort_findings(findings)
     for f in findings:
-        if not args.quiet or f.severity is Severity.ERROR:
+        if not quiet or f.severity is Severity.ERROR:
             print(f.format(), file=sys.stderr)
     if handbook is None or any(f.severity is Severity.ERROR for f in findings):
         print(f"thermofolio build: {summary_line(findings)}; nothing written", file=sys.stderr)
         return 1
     from generator.site import publish
 
-    return publish(handbook, findings, Path(args.output), args, start)
+    return publish(handbook, findings, output, args, start)
 
 
 def print_caution() -> None:

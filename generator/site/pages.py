@@ -83,8 +83,8 @@ def scientific(x: float | None) -> str:
         return MISSING
     mantissa, exponent = f"{float(x):.2e}".split("e")
     power = int(exponent)
-    if power == 0:
-        return mantissa
+    if -3 <= power <= 3:
+        return f"{float(x):.{max(0, 2 - power)}f}"
     return f"{mantissa} × 10{str(power).translate(_SUPERSCRIPT)}"
 
 
@@ -313,7 +313,7 @@ def _standard_rows(sp: Species, root: str) -> list[dict]:
                 "written": v.written, "conversion": v.conversion,
                 "from_memory": v.from_memory,
                 "role": "used" if n == 1 else "alternative",
-                "rule": q.preference_rule if n == 1 else "",
+                "rule": q.preference_rule if n == 1 and len(q.values) > 1 else "",
             })
     return rows
 
@@ -737,7 +737,7 @@ def audit_context(computed: Computed, site: dict, findings: Sequence[Finding]) -
     for sev in Severity:
         items = [finding_view(computed, f, "") for f in findings if f.severity is sev]
         groups.append({"anchor": f"sev-{sev.value}", "label": SEVERITY_NAMES[sev.value],
-                       "count": str(len(items)), "items": items})
+                       "count": str(len(items)), "entries": items})
     reviews = []
     for status in REVIEW_STATUSES:
         sp = [s for s in sorted(computed.species) if

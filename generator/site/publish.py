@@ -1,1 +1,274 @@
-def publish(*a): raise NotImplementedError
+"""``publish``: compute, build every page context, render, draw the charts, then write.
+
+Everything is read and computed before the first byte is written; the write is a swap of
+a complete temporary folder (generator.site.output), so a failure leaves the previous site
+as it was.  The output depends only on the sources: the build date is SOURCE_DATE_EPOCH or
+the newest source file's modification time, never the clock.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+import time
+from collections.abc import Mapping, Sequence
+from datetime import datetime, timezone
+from pathlib import Path
+
+from generator.caution import CAUTION
+from generator.compute import Computed, compute_handbook
+from generator.diagnostics import Finding, Severity
+from generator.exports import (
+    SPECIES_UNITS,
+    csv_table,
+    num,
+    reaction_json,
+    species_rows,
+)
+from generator.model import Handbook
+from generator.site import assets, markdown_notes, output, pages
+
+NOT_IN_GIT = "not under version control"
+SPECIES_CSV = ("T", "Cp", "H_minus_H298", "S", "G", "gef", "dfH", "u.dfH", "dfG", "u.dfG",
+               "log10Kf", "extrapolated")
+REACTION_CSV = ("T", "drH", "u.drH", "drS", "u.drS", "drG", "u.drG", "drCp", "drU", "TdrS",
+                "K", "log10K", "u.log10K", "E", "Etn", "extrapolated")
+SEARCH_GLOBAL = "THERMOFOLIO_SEARCH"
+
+
+def render_many(specs, jobs: int = 1) -> list[bytes]:
+    """generator.charts.render_many, imported late (matplotlib only when charts are drawn)."""
+    from generator.charts import render_many as draw
+
+    return draw(specs, jobs)
+
+
+# --- facts about the sources (I/O, before any writing) -------------------------------------
+
+
+def build_date(root: Path) -> str:
+    """UTC date of SOURCE_DATE_EPOCH, else of the newest source file's modification time."""
+    epoch = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
+    stamp: float | None = None
+    if epoch:
+        try:
+            stamp = float(int(epoch))
+        except ValueError:
+            stamp = None
+    if stamp is None:
+        mtimes = [p.stat().st_mtime for p in sorted(root.rglob("*")) if p.is_file()
+                  and not any(part.startswith(".") for part in p.relative_to(root).parts)]
+        stamp = max(mtimes, default=0.0)
+    return datetime.fromtimestamp(stamp, tz=timezone.utc).strftime("%Y-%m-%d")
+
+
+def source_revision(root: Path) -> str:
+    """``git rev-parse --short HEAD`` of the sources, or "not under version control"."""
+    try:
+        done = subprocess.run(["git", "-C", str(root), "rev-parse", "--short", "HEAD"],
+                              capture_output=True, text=True, timeout=10, check=False)
+    except (OSError, subprocess.SubprocessError):
+        return NOT_IN_GIT
+    rev = done.stdout.strip()
+    return rev if done.returncode == 0 and rev else NOT_IN_GIT
+
+
+# --- charts --------------------------------------------------------------------------------
+
+
+def chart_entries(computed: Computed) -> dict[str, list]:
+    """ChartEntry lists from generator.site.chart_specs, keyed species:<id> / reaction:<id>."""
+    try:
+        from generator.site import chart_specs
+    except ImportError:  # the chart specs module is not part of this build
+        return {}
+    out: dict[str, list] = {}
+    for sid in sorted(computed.species):
+        out[f"species:{sid}"] = list(chart_specs.species_charts(computed.species[sid], computed))
+    for rid in sorted(computed.reactions):
+        out[f"reaction:{rid}"] = list(chart_specs.reaction_charts(computed.reactions[rid],
+                                                                   computed))
+    return out
+
+
+def chart_path(spec) -> str:
+    from generator.charts import spec_digest
+
+    return f"charts/{spec_digest(spec)[:16]}.svg"
+
+
+def _is_level(spec) -> bool:
+    from generator.charts import LevelDiagramSpec
+
+    return isinstance(spec, LevelDiagramSpec)
+
+
+def plan_charts(entries: Mapping[str, Sequence]
+                ) -> tuple[dict[str, list[pages.ChartView]], dict[str, object]]:
+    """Views per item and the distinct specs to draw, by their content-addressed path."""
+    views: dict[str, list[pages.ChartView]] = {}
+    specs: dict[str, object] = {}
+    for key in sorted(entries):
+        for entry in entries[key]:
+            path = chart_path(entry.spec)
+            specs.setdefault(path, entry.spec)
+            views.setdefault(key, []).append(pages.ChartView(
+                path=path, caption=entry.caption, alt=entry.spec.description,
+                level=_is_level(entry.spec)))
+    return views, specs
+
+
+def draw_charts(specs: Mapping[str, object], previous: Path, jobs: int) -> tuple[dict, int]:
+    """SVG bytes per chart path; a chart the previous site already holds (same content
+    address, so same spec, style and versions) is reused instead of redrawn."""
+    out: dict[str, bytes] = {}
+    todo: list[str] = []
+    for path in sorted(specs):
+        old = previous / path
+        if (previous / output.MARKER).is_file() and old.is_file():
+            out[path] = old.read_bytes()
+        else:
+            todo.append(path)
+    if todo:
+        drawn = render_many([specs[p] for p in todo], jobs if len(todo) > 8 else 1)
+        out.update(zip(todo, drawn, strict=True))
+    return out, len(todo)
+
+
+# --- exports (pure) ------------------------------------------------------------------------
+
+
+def _json_bytes(doc) -> bytes:
+    return (json.dumps(doc, sort_keys=True, indent=1, ensure_ascii=False, allow_nan=False)
+            + "\n").encode("utf-8")
+
+
+def _findings_of(findings: Sequence[Finding], item: str) -> list[Finding]:
+    return [f for f in findings if f.item == item]
+
+
+def _value_doc(v, used: bool) -> dict:
+    return {"value": num(v.value), "unc": num(v.unc), "unit": v.unit, "ref": v.ref,
+            "used": used, "written": v.written, "from_memory": v.from_memory,
+            "conversion": v.conversion or None}
+
+
+def species_doc(computed: Computed, sid: str, findings: Sequence[Finding]) -> dict:
+    sr = computed.species[sid]
+    sp = sr.species
+    standard = {}
+    for name in sorted(sp.standard):
+        q = sp.standard[name]
+        best = q.preferred
+        standard[name] = [_value_doc(v, v is best) for v in pages.ordered_values(q)]
+    r = sp.review
+    return {
+        "id": sid, "name": sp.name, "formula": sp.formula, "phase": sp.phase, "form": sp.form,
+        "cas": sp.cas, "aliases": list(sp.aliases), "charge": sp.charge,
+        "elements": {el: n for el, n in sp.elements}, "molar_mass": num(sp.molar_mass),
+        "standard": standard, "units": SPECIES_UNITS,
+        "rows": species_rows(sr.grid, sr.formation),
+        "review": {"status": r.status, "by": r.by, "date": r.date, "note": r.note},
+        "findings": [f.to_json() for f in _findings_of(findings, sid)],
+        "caution": CAUTION,
+    }
+
+
+def reaction_doc(computed: Computed, rid: str, findings: Sequence[Finding]) -> dict:
+    """Exactly the ``calc --json`` shape (generator.exports.reaction_json), plus id and name."""
+    rr = computed.reactions[rid]
+    equation = pages.equation_text(rr, computed.handbook.species)
+    return reaction_json(equation, rr.grid, rr.crossover_T, _findings_of(findings, rid),
+                         id=rid, name=rr.reaction.name)
+
+
+def handbook_doc(computed: Computed, findings: Sequence[Finding]) -> dict:
+    s = computed.handbook.settings
+    refs = computed.handbook.references
+    return {
+        "settings": {"title": s.title, "edition": s.edition, "organisation": s.organisation,
+                     "standard_pressure_Pa": num(s.standard_pressure),
+                     "temperatures": [num(t) for t in s.temperatures],
+                     "units": dict(s.units), "tolerances": dict(s.tolerances),
+                     "review_interval_days": s.review_interval_days},
+        "references": [{"key": k, "citation": refs[k].citation, "kind": refs[k].kind,
+                        "standard_pressure_Pa": num(refs[k].standard_pressure),
+                        "doi": refs[k].doi, "url": refs[k].url} for k in sorted(refs)],
+        "species": [species_doc(computed, sid, findings) for sid in sorted(computed.species)],
+        "reactions": [reaction_doc(computed, rid, findings)
+                      for rid in sorted(computed.reactions)],
+        "caution": CAUTION,
+    }
+
+
+def export_files(computed: Computed, findings: Sequence[Finding]) -> dict[str, bytes]:
+    files: dict[str, bytes] = {}
+    for sid in sorted(computed.species):
+        doc = species_doc(computed, sid, findings)
+        files[f"species/{sid}.json"] = _json_bytes(doc)
+        files[f"species/{sid}.csv"] = csv_table(doc["rows"], SPECIES_CSV).encode("utf-8")
+    for rid in sorted(computed.reactions):
+        doc = reaction_doc(computed, rid, findings)
+        files[f"reactions/{rid}.json"] = _json_bytes(doc)
+        files[f"reactions/{rid}.csv"] = csv_table(doc["rows"], REACTION_CSV).encode("utf-8")
+    files["data/handbook.json"] = _json_bytes(handbook_doc(computed, findings))
+    index = json.dumps(pages.search_entries(computed), sort_keys=True, ensure_ascii=False,
+                       separators=(",", ":"))
+    files["search-index.js"] = f"window.{SEARCH_GLOBAL} = {index};\n".encode()
+    return files
+
+
+# --- the command's last step ---------------------------------------------------------------
+
+
+def render_pages(site_pages: Sequence[pages.Page]) -> dict[str, bytes]:
+    env = assets.environment()
+    return {p.path: env.get_template(p.template).render(**p.context).encode("utf-8")
+            for p in site_pages}
+
+
+def notes_html(computed: Computed) -> dict[str, str]:
+    out = {f"species:{sid}": markdown_notes.render(computed.species[sid].species.notes)
+           for sid in sorted(computed.species)}
+    out.update({f"reaction:{rid}": markdown_notes.render(computed.reactions[rid].reaction.notes)
+                for rid in sorted(computed.reactions)})
+    return out
+
+
+def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, args,
+            start_time: float) -> int:
+    """Publish the site into ``out_path``; returns the exit code (0 written, 1 refused)."""
+    out = Path(out_path)
+    quiet = bool(getattr(args, "quiet", False))
+    why = output.refusal(out)
+    if why:
+        print(f"thermofolio build: {why}; nothing written", file=sys.stderr)
+        return 1
+    computed = compute_handbook(handbook)
+    every = pages.all_findings(computed, findings)
+    root = Path(handbook.root)
+    meta = pages.SiteMeta(build_date=build_date(root), revision=source_revision(root))
+    views, specs = plan_charts(chart_entries(computed))
+    site_pages = pages.build_pages(computed, every, meta, views, notes_html(computed))
+    files = render_pages(site_pages)
+    files.update(export_files(computed, every))
+    files.update(assets.static_assets())
+    jobs = int(getattr(args, "jobs", 0) or min(4, os.cpu_count() or 1))
+    charts, drawn = draw_charts(specs, out, jobs)
+    files.update(charts)
+    try:
+        output.write_site(out, files)
+    except OSError as exc:
+        print(f"thermofolio build: cannot write {out}: {exc}; the previous site is unchanged",
+              file=sys.stderr)
+        return 1
+    if not quiet:
+        n_warn = sum(f.severity is Severity.WARNING for f in every)
+        elapsed = time.perf_counter() - start_time
+        print(f"thermofolio build: {len(site_pages)} pages, {len(charts)} charts "
+              f"({drawn} drawn, {len(charts) - drawn} reused), {n_warn} warnings, "
+              f"{elapsed:.1f} s -> {out}", file=sys.stderr)
+        print(f"CAUTION: {handbook.settings.caution or CAUTION}", file=sys.stderr)
+    return 0

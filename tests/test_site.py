@@ -1,0 +1,361 @@
+"""Tests for the published site (generator.site): links, offline assets, CSP, exports equal
+to the engine, sanitised notes, refusal and atomic replacement, byte-identical rebuilds.
+
+The demo handbook is built once per module.  Chart drawing is replaced by a tiny
+deterministic SVG writer there (matplotlib takes ~0.1 s a chart); one test draws real
+charts for the small fixture handbook.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import importlib
+import json
+import re
+from html.parser import HTMLParser
+from pathlib import Path
+
+import pytest
+
+from generator.cli import main
+from generator.compute import compute_handbook
+from generator.pipeline import check_handbook
+from generator.site import markdown_notes, output, pages
+
+REPO = Path(__file__).resolve().parents[1]
+DEMO = REPO / "sources"
+MINI = Path(__file__).parent / "fixtures" / "mini"
+publish_mod = importlib.import_module("generator.site.publish")  # the package exports the function
+EPOCH = "1767225600"  # 2026-01-01T00:00:00Z, an arbitrary fixed build date
+CSP = ("default-src 'none'; img-src 'self' data:; style-src 'self'; script-src 'self'; "
+       "base-uri 'none'; form-action 'none'")
+ALLOWED_ENDINGS = (".html", ".svg", ".css", ".js", ".json", ".csv")
+
+
+def fake_render_many(specs, jobs=1):
+    """A deterministic stand-in for generator.charts.render_many (one small SVG per spec)."""
+    return [(f'<svg xmlns="http://www.w3.org/2000/svg" role="img"><title>'
+             f'{hashlib.sha256(s.to_canonical_json().encode()).hexdigest()[:8]}</title></svg>'
+             ).encode() for s in specs]
+
+
+def build(sources: Path, out: Path, *extra: str) -> int:
+    return main(["build", str(sources), "-o", str(out), "-q", *extra])
+
+
+def tree(folder: Path) -> dict[str, bytes]:
+    return {str(p.relative_to(folder)): p.read_bytes()
+            for p in sorted(folder.rglob("*")) if p.is_file()}
+
+
+REAL_RENDER_MANY = publish_mod.render_many
+
+
+@pytest.fixture(autouse=True)
+def quick_charts(monkeypatch) -> None:
+    monkeypatch.setattr(publish_mod, "render_many", fake_render_many)
+
+
+@pytest.fixture(scope="module")
+def site(tmp_path_factory) -> Path:
+    out = tmp_path_factory.mktemp("site") / "out"
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setenv("SOURCE_DATE_EPOCH", EPOCH)
+        mp.setattr(publish_mod, "render_many", fake_render_many)
+        assert build(DEMO, out) == 0
+    return out
+
+
+class _Collector(HTMLParser):
+    def __init__(self) -> None:
+        super().__init__(convert_charrefs=True)
+        self.links: list[tuple[str, str, str]] = []  # (tag, attribute, value)
+        self.ids: set[str] = set()
+        self.metas: list[dict] = []
+        self.inline_styles = 0
+        self.inline_scripts = 0
+        self.handlers = 0
+        self._in_script = False
+        self.th_buttons = 0
+        self._in_th = False
+        self.text: list[str] = []
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        for name, value in attrs:
+            if name in ("href", "src") and value is not None:
+                self.links.append((tag, name, value))
+            if name == "style":
+                self.inline_styles += 1
+            if name.startswith("on"):
+                self.handlers += 1
+        if "id" in a:
+            self.ids.add(a["id"])
+        if tag == "meta":
+            self.metas.append(a)
+        if tag == "style":
+            self.inline_styles += 1
+        if tag == "script":
+            self._in_script = True
+            if "src" not in a:
+                self.inline_scripts += 1
+        if tag == "th":
+            self._in_th = True
+        if tag == "button" and self._in_th:
+            self.th_buttons += 1
+
+    def handle_endtag(self, tag):
+        if tag == "script":
+            self._in_script = False
+        if tag == "th":
+            self._in_th = False
+
+    def handle_data(self, data):
+        self.text.append(data)
+
+
+_parsed: dict[Path, _Collector] = {}
+
+
+def parse(path: Path) -> _Collector:
+    if path not in _parsed:
+        c = _Collector()
+        c.feed(path.read_text(encoding="utf-8"))
+        _parsed[path] = c
+    return _parsed[path]
+
+
+def html_pages(site: Path) -> list[Path]:
+    return sorted(site.rglob("*.html"))
+
+
+def test_expected_pages_exist(site: Path) -> None:
+    for name in ("index.html", "species.html", "reactions.html", "references.html",
+                 "conventions.html", "audit.html", "search.html", "search-index.js",
+                 "data/handbook.json", "assets/site.css", "assets/site.js",
+                 "assets/print.css", output.MARKER, "species/water-liquid.html",
+                 "species/water-liquid.json", "species/water-liquid.csv",
+                 "reactions/lime-burning.html", "reactions/lime-burning.json",
+                 "reactions/lime-burning.csv", "references/codata-1989.html"):
+        assert (site / name).is_file(), name
+
+
+def test_every_internal_link_and_fragment_resolves(site: Path) -> None:
+    for page in html_pages(site):
+        for tag, _attr, value in parse(page).links:
+            if value.startswith("data:"):
+                assert tag == "link" and value == "data:,", (page, value)
+                continue
+            target, _, fragment = value.partition("#")
+            dest = (page.parent / target).resolve() if target else page
+            assert dest.is_file(), f"{page.relative_to(site)}: {value} does not resolve"
+            if fragment:
+                assert fragment in parse(dest).ids, f"{page.relative_to(site)}: #{fragment}"
+
+
+def test_no_outside_urls_and_no_folder_links(site: Path) -> None:
+    outside = ("http:", "https:", "//")
+    for page in html_pages(site):
+        for _tag, _attr, value in parse(page).links:
+            assert not value.lower().startswith(outside), (page, value)
+            target = value.partition("#")[0]
+            if target and not value.startswith("data:"):
+                assert target.endswith(ALLOWED_ENDINGS), (page, value)
+    for css in (site / "assets").glob("*.css"):
+        text = css.read_text(encoding="utf-8")
+        assert "@import" not in text
+        assert not re.search(r"url\(\s*['\"]?(https?:|//)", text)
+
+
+def test_csp_icon_caution_and_print_footer_on_every_page(site: Path) -> None:
+    settings = check_handbook(DEMO)[0].settings
+    caution = " ".join(settings.caution.split())
+    footer = f"Uncontrolled when printed — {settings.title}, edition {settings.edition}"
+    for page in html_pages(site):
+        c = parse(page)
+        csp = [m for m in c.metas if m.get("http-equiv") == "Content-Security-Policy"]
+        assert len(csp) == 1 and csp[0]["content"] == CSP, page
+        text = " ".join("".join(c.text).split())
+        assert caution in text, page
+        assert footer in text, page
+        assert settings.edition in text and "2026-01-01" in text, page
+        assert ("link", "href", "data:,") in c.links
+        assert c.inline_scripts == 0 and c.inline_styles == 0 and c.handlers == 0, page
+        html = page.read_text(encoding="utf-8")
+        assert not re.search(r">\s*[−-]?(inf|nan)\s*<", html, re.IGNORECASE), page
+    print_css = (site / "assets" / "print.css").read_text(encoding="utf-8")
+    assert "@page { size: auto; margin: 15mm; }" in print_css
+    assert "Uncontrolled when printed" in print_css
+
+
+def test_sheets_carry_review_status_and_value_anchors(site: Path) -> None:
+    c = parse(site / "species" / "water-liquid.html")
+    assert {"std-dfH", "std-S", "std-dfG", "table", "review"} <= c.ids
+    text = "".join(c.text)
+    assert "Review status" in text and "checked" in text  # status: checked in the source
+    r = parse(site / "reactions" / "lime-burning.html")
+    assert {"std-drH", "std-drG", "std-K", "balance", "contributions", "checks"} <= r.ids
+
+
+def test_index_tables_are_sortable_by_buttons(site: Path) -> None:
+    for name in ("species.html", "reactions.html"):
+        html = (site / name).read_text(encoding="utf-8")
+        assert 'class="data sortable"' in html and 'aria-sort="none"' in html
+        assert parse(site / name).th_buttons >= 5
+
+
+def test_exported_reaction_rows_equal_the_engine(site: Path) -> None:
+    handbook, _ = check_handbook(DEMO)
+    computed = compute_handbook(handbook)
+    for rid, rr in computed.reactions.items():
+        doc = json.loads((site / "reactions" / f"{rid}.json").read_text(encoding="utf-8"))
+        assert {"equation", "units", "rows", "crossover_T", "findings", "caution"} <= set(doc)
+        assert len(doc["rows"]) == len(rr.grid.T)
+        for i, row in enumerate(doc["rows"]):
+            for key in ("T", "drH", "drS", "drG", "log10K"):
+                assert row[key] == pytest.approx(float(getattr(rr.grid, key)[i]), rel=1e-9)
+        assert doc["crossover_T"] == pytest.approx(list(rr.crossover_T), rel=1e-9)
+    csv_lines = (site / "reactions" / "lime-burning.csv").read_text().splitlines()
+    assert csv_lines[0].startswith("T,drH,")
+    assert len(csv_lines) == 1 + len(handbook.settings.temperatures)
+
+
+def test_handbook_and_species_exports(site: Path) -> None:
+    whole = json.loads((site / "data" / "handbook.json").read_text(encoding="utf-8"))
+    assert {"settings", "references", "species", "reactions"} <= set(whole)
+    water = next(s for s in whole["species"] if s["id"] == "water-liquid")
+    # -285.830 kJ/mol: the dfH of water(l) written in sources/species/water-liquid.yaml
+    assert water["standard"]["dfH"][0]["value"] == pytest.approx(-285.83)
+    one = json.loads((site / "species" / "water-liquid.json").read_text(encoding="utf-8"))
+    assert one == water
+    for text in (p.read_text(encoding="utf-8") for p in site.rglob("*.json")):
+        assert "NaN" not in text and "Infinity" not in text
+
+
+def test_search_index_is_a_classic_script(site: Path) -> None:
+    text = (site / "search-index.js").read_text(encoding="utf-8")
+    prefix = f"window.{publish_mod.SEARCH_GLOBAL} = "
+    assert text.startswith(prefix) and text.rstrip().endswith(";")
+    data = json.loads(text[len(prefix):].rstrip().rstrip(";"))
+    co2 = next(s for s in data["species"] if s["id"] == "carbon-dioxide")
+    assert co2["key"] == "co2" and co2["url"] == "species/carbon-dioxide.html"
+    assert co2["formula"] == "CO₂"
+    assert all(e["url"].endswith(".html") for e in data["species"] + data["reactions"])
+    js = (site / "assets" / "site.js").read_text(encoding="utf-8")
+    assert "fetch(" not in js and "XMLHttpRequest" not in js
+
+
+def test_notes_are_sanitised() -> None:
+    html = markdown_notes.render(
+        "<script>alert(1)</script>\n\n<img src=x onerror=alert(1)>\n\n[x](javascript:alert(1))"
+        "\n\n[d](data:text/html,hi) <b style=\"color:red\" onclick=\"go()\">b</b> "
+        "[ok](../species/water-gas.html) [web](https://example.org/a)")
+    low = html.lower()
+    for bad in ("<script", "alert(1)", "onerror", "javascript:", "data:", "<img", "style=",
+                "onclick"):
+        assert bad not in low, bad
+    assert 'href="../species/water-gas.html"' in html
+    assert 'href="https://example.org/a"' in html
+    table = markdown_notes.render("| a | b |\n|---|--:|\n| 1 | 2 |")
+    assert "<table>" in table and 'align="right"' in table
+    assert markdown_notes.render("") == ""
+
+
+def test_number_formatting() -> None:
+    assert pages.fixed(-285.83, "kJ") == "−285.830"
+    assert pages.fixed(-0.0001, "kJ") == "0.000"
+    assert pages.fixed(float("nan"), "kJ") == "—"
+    assert pages.fixed(None, "J") == "—"
+    assert pages.scientific(float("inf")) == "—"
+    assert pages.scientific(0.0) == "—"  # K underflowed: log10 K is shown instead
+    assert pages.scientific(1.08e-23) == "1.08 × 10⁻²³"
+    assert pages.signed_number(-0.5) == "−1/2"
+    assert pages.uncertainty(0.04, "kJ") == "± 0.040"
+
+
+def test_refuses_non_empty_unmarked_folder(tmp_path: Path, capsys) -> None:
+    out = tmp_path / "precious"
+    out.mkdir()
+    (out / "thesis.txt").write_text("keep me")
+    assert build(MINI, out) == 1
+    assert "refusing" in capsys.readouterr().err
+    assert tree(out) == {"thesis.txt": b"keep me"}
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["precious"]
+
+
+def test_failed_build_leaves_previous_site_intact(tmp_path: Path, monkeypatch) -> None:
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
+    out = tmp_path / "out"
+    assert build(MINI, out) == 0
+    before = tree(out)
+
+    def boom(*_a, **_k):
+        raise RuntimeError("renderer exploded")
+
+    monkeypatch.setattr(publish_mod, "render_pages", boom)
+    assert build(MINI, out) == 3  # internal error, reported by the CLI
+    assert tree(out) == before
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]
+    with pytest.raises(ValueError):  # a failure half-way through writing
+        output.write_site(out, {"a.html": b"x", "../escape.html": b"y"})
+    assert tree(out) == before
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]
+
+
+def test_rebuild_replaces_marked_site(tmp_path: Path, monkeypatch) -> None:
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
+    out = tmp_path / "out"
+    assert build(MINI, out) == 0
+    (out / "stale.html").write_text("old")
+    assert build(MINI, out) == 0
+    assert not (out / "stale.html").exists() and (out / output.MARKER).is_file()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]
+
+
+def test_two_builds_are_byte_identical(site: Path, tmp_path: Path, monkeypatch) -> None:
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
+    again = tmp_path / "again"
+    assert build(DEMO, again) == 0
+    first, second = tree(site), tree(again)
+    assert first.keys() == second.keys()
+    assert [k for k in first if first[k] != second[k]] == []
+
+
+def test_build_date_falls_back_to_newest_source(tmp_path: Path, monkeypatch) -> None:
+    import os
+
+    monkeypatch.delenv("SOURCE_DATE_EPOCH", raising=False)
+    src = tmp_path / "hb"
+    src.mkdir()
+    (src / "a.yaml").write_text("x")
+    os.utime(src / "a.yaml", (0, 1700000000))  # 2023-11-14T22:13:20Z
+    assert publish_mod.build_date(src) == "2023-11-14"
+    assert publish_mod.source_revision(src) == publish_mod.NOT_IN_GIT
+
+
+def test_real_charts_are_drawn_and_linked(tmp_path: Path, monkeypatch) -> None:
+    """Draws real SVGs (matplotlib) for a one-chart plan on the small fixture handbook."""
+    from collections import namedtuple
+
+    from generator.charts import LineChartSpec, Series
+
+    Entry = namedtuple("Entry", "name caption spec")
+    spec = LineChartSpec(title="H2O(g): Cp°(T)", description="Cp of water vapour rises with T.",
+                         x_label="T / K", y_label="Cp° / (J/(mol·K))",
+                         series=(Series("Cp°", (300.0, 600.0, 900.0), (33.6, 36.3, 40.0)),))
+    monkeypatch.setattr(publish_mod, "render_many", REAL_RENDER_MANY)
+    monkeypatch.setattr(publish_mod, "chart_entries",
+                        lambda computed: {"species:water-gas": [Entry("cp", "Cp° of H₂O(g)",
+                                                                      spec)]})
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
+    out = tmp_path / "out"
+    assert build(MINI, out) == 0
+    svgs = list((out / "charts").glob("*.svg"))
+    assert len(svgs) == 1 and re.fullmatch(r"[0-9a-f]{16}\.svg", svgs[0].name)
+    assert svgs[0].read_bytes().lstrip().startswith((b"<?xml", b"<svg"))
+    page = (out / "species" / "water-gas.html").read_text(encoding="utf-8")
+    assert f'<img src="../charts/{svgs[0].name}" alt="Cp of water vapour rises with T.">' in page
+    assert "<figcaption>Cp° of H₂O(g)</figcaption>" in page
+    first = svgs[0].read_bytes()
+    assert build(MINI, out) == 0  # the second build reuses the drawn chart
+    assert (out / "charts" / svgs[0].name).read_bytes() == first
