@@ -23,13 +23,13 @@ class _Parser(argparse.ArgumentParser):
 
 
 def build_parser() -> argparse.ArgumentParser:
-    from generator.commands import build, calc, check, schema, serve
+    from generator.commands import build, calc, check, diff, review, schema, serve
 
     parser = _Parser(prog="thermofolio", description="A cited, reviewed thermochemical "
                      "handbook: check the sources, compute, publish.")
     parser.add_argument("--version", action="version", version=f"thermofolio {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
-    for module in (check, calc, build, serve, schema):
+    for module in (check, calc, build, serve, schema, review, diff):
         module.register(sub)
     return parser
 

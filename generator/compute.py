@@ -8,8 +8,10 @@ no file, template or chart access.  Render only formats what this produced.
 
 from __future__ import annotations
 
+import datetime as dt
 from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -32,6 +34,10 @@ from generator.thermo.species_props import (
     species_functions,
 )
 from generator.thermo.standard_state import to_standard_pressure
+
+if TYPE_CHECKING:
+    from generator.network import NetworkResult
+    from generator.provenance import Completeness, Provenance
 
 CHART_POINTS = 120  # points of a smooth curve on a chart
 
@@ -78,6 +84,14 @@ class Computed:
     species: Mapping[str, SpeciesResult]
     reactions: Mapping[str, ReactionResult]
     findings: tuple[Finding, ...]
+    # Several sources per value, review coverage, audit figures (generator.provenance) and
+    # the network's reconciled formation enthalpies (generator.network).
+    provenance: Provenance | None = None
+    network: NetworkResult | None = None
+
+    @property
+    def completeness(self) -> Completeness | None:
+        return self.provenance.completeness if self.provenance else None
 
 
 def chart_grid(lo: float, hi: float) -> np.ndarray:
@@ -123,8 +137,12 @@ def evaluate_reaction(nu: Mapping[str, float], species: Mapping[str, Species],
     return on_grid, curve, crossings
 
 
-def compute_handbook(handbook: Handbook) -> Computed:
+def compute_handbook(handbook: Handbook, today: dt.date | None = None) -> Computed:
+    """Everything the handbook publishes; review ages are counted to ``today`` (default:
+    ``provenance.today_from_environment``, SOURCE_DATE_EPOCH or the current date)."""
     from generator.findings import engine_checks
+    from generator.network import network_findings, solve_network
+    from generator.provenance import provenance, today_from_environment
 
     element_refs, ref_findings = resolve_reference_states(handbook.species)
     hb = to_standard_pressure(handbook, element_refs)
@@ -169,7 +187,11 @@ def compute_handbook(handbook: Handbook) -> Computed:
     computed = Computed(hb, element_refs, species, reactions, ())
     checks, findings = engine_checks(computed)
     reactions = {rid: _with_checks(r, checks.get(rid, ())) for rid, r in reactions.items()}
-    return Computed(hb, element_refs, species, reactions, tuple(ref_findings + findings))
+    prov = provenance(hb, today or today_from_environment())
+    network = solve_network(hb, element_refs)
+    findings += list(prov.findings) + network_findings(network)
+    return Computed(hb, element_refs, species, reactions, tuple(ref_findings + findings),
+                    provenance=prov, network=network)
 
 
 def _with_checks(r: ReactionResult, checks) -> ReactionResult:

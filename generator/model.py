@@ -150,6 +150,7 @@ class Species:
     ref: str | None = None  # the file's default reference
     path: str = ""
     location: Location | None = None
+    content_digest: str | None = None  # generator.digest of the parsed file minus its review
 
     @property
     def element_counts(self) -> dict[str, int]:
@@ -192,6 +193,47 @@ class CombineStep:
 
 
 @dataclass(frozen=True)
+class Feed:
+    """One feed of a reaction's ``conditions:``: moles of each species, inerts allowed.
+
+    ``species`` holds species ids once the loader has resolved the names (``written``
+    keeps them as written in the source, in file order)."""
+
+    species: tuple[str, ...]
+    moles: tuple[float, ...]
+    written: tuple[str, ...] = ()
+    location: Location | None = None
+    name_locations: tuple[Location | None, ...] = ()
+
+    @property
+    def amounts(self) -> dict[str, float]:
+        """Species id -> mol (a species named twice is summed)."""
+        out: dict[str, float] = {}
+        for sid, n in zip(self.species, self.moles, strict=True):
+            out[sid] = out.get(sid, 0.0) + n
+        return out
+
+    @property
+    def label(self) -> str:
+        """The feed as written, e.g. ``CH4 1 + H2O 3 + N2 0.1``."""
+        names = self.written or self.species
+        return " + ".join(f"{w} {n:g}" for w, n in zip(names, self.moles, strict=True))
+
+
+@dataclass(frozen=True)
+class Conditions:
+    """A reaction's ``conditions:``: feeds, total pressures (Pa) and the temperature range
+    (K) its sheet shows equilibrium conversion over; ``T_in`` (K) is the feed temperature
+    for the adiabatic rise.  No feeds: the reactants in stoichiometric amounts."""
+
+    feeds: tuple[Feed, ...] = ()
+    pressures: tuple[float, ...] = (1.0e5,)
+    T_range: tuple[float, float] | None = None
+    T_in: float = 298.15
+    location: Location | None = None
+
+
+@dataclass(frozen=True)
 class Reaction:
     id: str
     name: str
@@ -207,7 +249,8 @@ class Reaction:
     ref: str | None = None
     path: str = ""
     location: Location | None = None
-    conditions: Mapping | None = None
+    conditions: Conditions | None = None
+    content_digest: str | None = None  # generator.digest of the parsed file minus its review
 
     @property
     def stoichiometry(self) -> dict[str, float]:

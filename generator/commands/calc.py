@@ -5,7 +5,9 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import re
 import sys
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -13,10 +15,15 @@ import numpy as np
 from generator.caution import CAUTION
 from generator.diagnostics import Finding, Location, Severity, note, sort_findings
 from generator.equation import EquationError, parse_equation
-from generator.exports import reaction_json
+from generator.exports import num, reaction_json
 from generator.load import load_handbook
+from generator.load.conditions import feed_problem, resolve_feed_name
 from generator.load.resolve import resolve_equation
-from generator.model import Reaction
+from generator.model import Reaction, Species
+from generator.thermo.adiabatic import AdiabaticResult, adiabatic_caution, adiabatic_temperature
+from generator.thermo.electrochem import voltage_efficiency
+from generator.thermo.equilibrium import EquilibriumResult, equilibrium, stoichiometric_feed
+from generator.units import UnitError, parse_pressure
 
 ARG = "<equation>"
 
@@ -32,6 +39,17 @@ def register(sub) -> None:
                    "inclusive in steps of STEP, K")
     p.add_argument("--sources", default="sources", help="handbook folder (default: sources)")
     p.add_argument("--electrons", type=int, metavar="N", help="electrons transferred, for E°")
+    p.add_argument("--feed", metavar="SPECIES=MOL,...", help='moles of each species fed, e.g. '
+                   '"CH4=1,H2O=3,N2=0.1" (inerts allowed): prints the equilibrium composition')
+    p.add_argument("--pressure", dest="pressures", action="append", default=[], metavar="P",
+                   help="total pressure with a unit, e.g. 20bar or 101325 Pa (repeatable; "
+                   "default: the standard pressure)")
+    p.add_argument("--adiabatic", action="store_true", help="the adiabatic outlet temperature "
+                   "on complete conversion of the feed")
+    p.add_argument("--T-in", dest="T_in", type=float, metavar="K",
+                   help="feed temperature for --adiabatic, K (default 298.15)")
+    p.add_argument("--voltage", type=float, metavar="V", help="operating cell voltage, V: "
+                   "voltage efficiency (needs electrons)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
     p.set_defaults(run=run)
 
@@ -75,6 +93,16 @@ def run(args: argparse.Namespace) -> int:
         return _usage(temps)
     if args.electrons is not None and args.electrons < 1:
         return _usage("--electrons must be at least 1")
+    pressures = _pressures(args.pressures)
+    if isinstance(pressures, str):
+        return _usage(pressures)
+    feed_items = _feed_items(args.feed) if args.feed is not None else None
+    if isinstance(feed_items, str):
+        return _usage(feed_items)
+    if args.T_in is not None and not (math.isfinite(args.T_in) and args.T_in > 0):
+        return _usage("--T-in must be a temperature above 0 K")
+    if args.voltage is not None and not (math.isfinite(args.voltage) and args.voltage > 0):
+        return _usage("--voltage must be a positive number of volts")
     handbook, load_findings = load_handbook(Path(args.sources))
     if handbook is None:
         for f in sort_findings(load_findings):
@@ -89,6 +117,7 @@ def run(args: argparse.Namespace) -> int:
     reaction: Reaction | None = computed.handbook.reactions.get(args.equation.strip())
     if reaction is not None:
         nu, equation, electrons = reaction.stoichiometry, reaction.equation, reaction.electrons
+        terms = [*reaction.reactants, *reaction.products]
     else:
         try:
             parsed = parse_equation(args.equation)
@@ -108,6 +137,7 @@ def run(args: argparse.Namespace) -> int:
             nu[t.species] = nu.get(t.species, 0.0) + t.nu
         nu = {k: v for k, v in nu.items() if abs(v) > 1e-12}
         equation, electrons = args.equation.strip(), None
+        terms = [*sides[0], *sides[1]]
     if args.electrons:
         electrons = args.electrons
     if not nu:
@@ -124,14 +154,32 @@ def run(args: argparse.Namespace) -> int:
     if not np.all(np.isfinite(f.drG)):
         findings.append(Finding(Severity.ERROR, "not-computable", "a species lacks ΔfH° or S°; "
                                 "values shown as —"))
+    if args.voltage is not None and not electrons:
+        return _usage("--voltage needs an electrochemical reaction: give --electrons N")
+    extras = Extras()
+    if feed_items is not None or pressures or args.adiabatic:
+        code = _process(args, extras, reaction, nu, terms, feed_items, pressures, grid,
+                        computed.handbook, findings)
+        if code:
+            return code
+    if args.voltage is not None:
+        extras.voltage = _voltage_rows(f, args.voltage)
     findings = sort_findings(findings)
     if args.json:
+        more = {}
+        if extras.equilibrium is not None:
+            more["equilibrium"] = extras.equilibrium_json()
+        if extras.adiabatic is not None:
+            more["adiabatic"] = {"T_in": num(extras.adiabatic.T_in),
+                                 "T_out": num(extras.adiabatic.T_out)}
+        if extras.voltage is not None:
+            more["voltage_efficiency"] = extras.voltage
         doc = reaction_json(equation, f, crossings, findings,
                             species={k: v for k, v in sorted(nu.items())},
-                            electrons=electrons)
+                            electrons=electrons, **more)
         print(json.dumps(doc, indent=2, ensure_ascii=False, sort_keys=False))
     else:
-        print(text_report(equation, f, crossings, findings, electrons))
+        print(text_report(equation, f, crossings, findings, electrons, extras))
     return 1 if any(x.severity is Severity.ERROR for x in findings) else 0
 
 
@@ -139,7 +187,8 @@ def _cell(x: float, fmt: str) -> str:
     return fmt.format(x).replace("-", "−") if np.isfinite(x) else "—"
 
 
-def text_report(equation, f, crossings, findings, electrons) -> str:
+def text_report(equation, f, crossings, findings, electrons, extras: Extras | None = None
+                ) -> str:
     cols = [("T/K", f.T, "{:.2f}"), ("ΔrH°", f.drH, "{:.3f}"), ("±", f.u_drH, "{:.3f}"),
             ("ΔrS°", f.drS, "{:.3f}"), ("ΔrG°", f.drG, "{:.3f}"), ("±", f.u_drG, "{:.3f}"),
             ("ΔrCp°", f.drCp, "{:.3f}"), ("ΔrU°", f.drU, "{:.3f}"), ("T·ΔrS°", f.TdrS, "{:.3f}"),
@@ -167,8 +216,200 @@ def text_report(equation, f, crossings, findings, electrons) -> str:
     else:
         lines.append("ΔrG° does not change sign within the data's range"
                      + (f" ({f.covered[0]:g}–{f.covered[1]:g} K)" if f.covered else ""))
+    if extras is not None:
+        lines += extras.text()
     for x in findings:
         lines.append(x.format())
     lines.append("")
     lines.append(f"CAUTION: {CAUTION}")
     return "\n".join(lines)
+
+
+# --- equilibrium, adiabatic temperature and voltage efficiency ------------------------------
+
+FEED_ARG = "<feed>"
+_COEF_PREFIX = re.compile(r"^\s*(?:[0-9]+/[0-9]+|[0-9]*\.[0-9]+|[0-9]+)\s+")
+
+
+def _pressures(texts: list[str]) -> list[float] | str:
+    """Each --pressure in Pa, or a message; a bare number is refused (say the unit)."""
+    out = []
+    for t in texts:
+        try:
+            P = parse_pressure(t)
+        except UnitError as exc:
+            hint = f" ({exc.hint})" if exc.hint else ""
+            try:
+                float(t)
+                return f"--pressure {t}: a pressure needs a unit, e.g. {t} bar"
+            except ValueError:
+                return f"--pressure {t}: {exc.message}{hint}"
+        if not (math.isfinite(P) and P > 0):
+            return f"--pressure {t}: must be above zero"
+        out.append(P)
+    return out
+
+
+def _feed_items(text: str) -> list[tuple[str, float, int]] | str:
+    """``"CH4=1,H2O=3"`` as (name, mol, 1-based column of the name), or a message."""
+    items: list[tuple[str, float, int]] = []
+    col = 1
+    for part in text.split(","):
+        name, eq, amount = part.partition("=")
+        lead = len(name) - len(name.lstrip())
+        if not eq or not name.strip():
+            return f"--feed: write SPECIES=MOL pairs separated by commas, got '{part.strip()}'"
+        try:
+            n = float(amount)
+        except ValueError:
+            return f"--feed: the amount of {name.strip()} is not a number: '{amount.strip()}'"
+        if not math.isfinite(n) or n < 0:
+            return f"--feed: the amount of {name.strip()} must be zero or more"
+        items.append((name.strip(), n, col + lead))
+        col += len(part) + 1
+    if sum(n for _, n, _ in items) <= 0:
+        return "--feed: at least one amount must be above zero"
+    return items
+
+
+@dataclass
+class Extras:
+    """What --feed, --pressure, --adiabatic and --voltage add to the report."""
+
+    equilibrium: list[EquilibriumResult] | None = None
+    labels: dict[str, str] = field(default_factory=dict)
+    feed_label: str = ""
+    standard_pressure: float = 1.0e5
+    adiabatic: AdiabaticResult | None = None
+    voltage: list[dict] | None = None
+
+    def equilibrium_json(self) -> list[dict]:
+        return [{"T": num(r.T), "P": num(r.P / 1.0e5), "extent": num(r.extent),
+                 "conversion": num(r.conversion),
+                 "x": {self.labels.get(s, s): num(v) for s, v in r.x.items()}}
+                for r in self.equilibrium or []]
+
+    def text(self) -> list[str]:
+        lines: list[str] = []
+        if self.equilibrium is not None:
+            lines += ["", f"equilibrium from feed {self.feed_label} (mol); ideal gases "
+                      f"(activity y·P/P°, P° = {self.standard_pressure / 1e5:g} bar), pure "
+                      "condensed phases at unit activity, ideal aqueous solutes (m/1 mol/kg); "
+                      "x = amount fraction over all species; conversion of the first reactant"]
+            ids = list(self.equilibrium[0].x) if self.equilibrium else []
+            head = ["T/K", "P/bar", "extent/mol", "conversion"] + \
+                [f"x {self.labels.get(s, s)}" for s in ids]
+            table = [head]
+            for r in self.equilibrium:
+                table.append([f"{r.T:.2f}", f"{r.P / 1e5:g}", _g(r.extent),
+                              "—" if r.conversion is None else f"{r.conversion:.5f}"]
+                             + [_g(r.x[s]) for s in ids])
+            widths = [max(len(row[j]) for row in table) for j in range(len(head))]
+            lines += ["  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True))
+                      for row in table]
+        if self.adiabatic is not None:
+            a = self.adiabatic
+            lines += ["", f"adiabatic: feed {self.feed_label} (mol) at {a.T_in:.2f} K reaches "
+                      f"{_cell(a.T_out, '{:.1f}')} K (rise {_cell(a.rise, '{:.1f}')} K) on "
+                      "complete conversion with no heat loss (outlet phases as written, no "
+                      "dissociation)"]
+        if self.voltage is not None:
+            lines += ["", "voltage efficiency at " + f"{self.voltage[0]['V']:g} V" +
+                      " (electrolysis: |E°|/V and Etn/V; galvanic cell: V/|E°| and V/Etn)"]
+            for row in self.voltage:
+                lines.append(f"  {row['T']:.2f} K  {row['mode']}: voltage "
+                             f"{_pct(row['eta_V'])}, thermal {_pct(row['eta_thermal'])}")
+        return lines
+
+
+def _g(x: float) -> str:
+    if not math.isfinite(x):
+        return "—"
+    return f"{x:.6f}" if x == 0 or abs(x) >= 1e-3 else f"{x:.4e}"
+
+
+def _pct(x: float | None) -> str:
+    return "—" if x is None else f"{100 * x:.1f} %"
+
+
+def _label(written: str) -> str:
+    """A term as written, without its coefficient and the braces of an id."""
+    text = _COEF_PREFIX.sub("", written).strip()
+    return text[1:-1] if text.startswith("{") and text.endswith("}") else text
+
+
+def _process(args, extras: Extras, reaction: Reaction | None, nu: dict[str, float], terms,
+             feed_items, pressures: list[float], grid, handbook, findings: list[Finding]
+             ) -> int:
+    """Fill ``extras`` with the equilibrium and adiabatic results; an exit code on error."""
+    species: dict[str, Species] = dict(handbook.species)
+    settings = handbook.settings
+    conditions = reaction.conditions if reaction is not None else None
+    labels = {t.species: _label(t.written) for t in terms}
+    if feed_items is not None:
+        feed: dict[str, float] = {}
+        for name, n, col in feed_items:
+            sid, message, hint = resolve_feed_name(name, species, nu)
+            if sid is None:
+                print(f"{FEED_ARG}:1:{col}: error: {message}" + (f" ({hint})" if hint else ""),
+                      file=sys.stderr)
+                return 1
+            feed[sid] = feed.get(sid, 0.0) + n
+            labels.setdefault(sid, name)
+        extras.feed_label = ", ".join(f"{name}={n:g}" for name, n, _ in feed_items)
+    elif conditions is not None and conditions.feeds:
+        first = conditions.feeds[0]
+        feed = first.amounts
+        for sid, w in zip(first.species, first.written, strict=True):
+            labels.setdefault(sid, w)
+        extras.feed_label = ", ".join(f"{w}={n:g}" for w, n in
+                                      zip(first.written, first.moles, strict=True))
+    else:
+        feed = stoichiometric_feed(nu)
+        extras.feed_label = ", ".join(f"{labels[s]}={n:g}" for s, n in feed.items())
+    problem = feed_problem(nu, species, feed)
+    if problem:
+        print(f"{FEED_ARG}: error: {problem[0]} ({problem[1]})", file=sys.stderr)
+        return 1
+    extras.labels = labels
+    extras.standard_pressure = settings.standard_pressure
+    first_reactant = next((t.species for t in terms if nu.get(t.species, 0) < 0), None)
+    if pressures or not args.adiabatic:
+        results: list[EquilibriumResult] = []
+        for P in pressures or [settings.standard_pressure]:
+            try:
+                results += equilibrium(nu, species, feed, grid, P,
+                                       standard_pressure=settings.standard_pressure,
+                                       first_reactant=first_reactant)
+            except ValueError as exc:
+                print(f"{FEED_ARG}: error: {exc}", file=sys.stderr)
+                return 1
+        extras.equilibrium = results
+        seen = set()
+        for r in results:
+            if r.note and (r.T, r.P) not in seen:
+                seen.add((r.T, r.P))
+                findings.append(note("equilibrium-bound" if r.limited_by else "equilibrium",
+                                     f"equilibrium at {r.T:g} K, {r.P / 1e5:g} bar: {r.note}"))
+    if args.adiabatic:
+        T_in = args.T_in if args.T_in is not None else (
+            conditions.T_in if conditions is not None else 298.15)
+        a = adiabatic_temperature(nu, species, feed, T_in)
+        extras.adiabatic = a
+        if a.note:
+            findings.append(note("adiabatic", f"adiabatic temperature: {a.note}"))
+        caution = adiabatic_caution(a.rise, settings.adiabatic_caution_K)
+        if caution:
+            findings.append(Finding(Severity.WARNING, "runaway-potential", caution))
+    return 0
+
+
+def _voltage_rows(f, V: float) -> list[dict]:
+    rows = []
+    for i, T in enumerate(f.T):
+        if f.E is None or not (math.isfinite(f.E[i]) and math.isfinite(f.Etn[i])):
+            continue
+        eff = voltage_efficiency(float(f.E[i]), float(f.Etn[i]), V)
+        rows.append({"T": num(T), "V": num(V), "mode": eff.mode, "eta_V": num(eff.eta_V),
+                     "eta_thermal": num(eff.eta_thermal)})
+    return rows

@@ -6,11 +6,13 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from generator.diagnostics import Location
+from generator.digest import content_digest
 from generator.equation import EquationError, ParsedEquation, parse_equation
+from generator.load.conditions import read_conditions
 from generator.load.fields import FileReader, kind_of
 from generator.load.review import from_memory_note, read_review
 from generator.load.values import read_value
-from generator.model import CombineStep, Measured, Review
+from generator.model import CombineStep, Conditions, Measured, Review
 from generator.source_schema import COMBINE_FIELDS, MEASURED_FIELDS, REACTION_FIELDS
 from generator.yamlsource import YList, YMap
 
@@ -31,8 +33,9 @@ class RawReaction:
     ref: str | None
     path: str
     location: Location
-    conditions: dict | None = None
+    conditions: Conditions | None = None
     refs_used: list[tuple[str, Location]] = field(default_factory=list)
+    content_digest: str | None = None
 
 
 def read_reaction(r: FileReader, doc: Any) -> RawReaction | None:
@@ -67,10 +70,9 @@ def read_reaction(r: FileReader, doc: Any) -> RawReaction | None:
                     m.where("electrons"))
         else:
             electrons = e
-    conditions = m.get("conditions")
-    if conditions is not None and not isinstance(conditions, YMap):
-        r.error("type", "'conditions' must be a mapping", m.where("conditions"))
-        conditions = None
+    conditions = None
+    if m.get("conditions") is not None:
+        conditions = read_conditions(r, m["conditions"], m.where("conditions"))
     if rid is None or name is None:
         return None
     return RawReaction(
@@ -78,7 +80,7 @@ def read_reaction(r: FileReader, doc: Any) -> RawReaction | None:
         measured=measured, combine=combine, electrons=electrons,
         family=r.string_list(m, "family", "the reaction"), review=review,
         notes=r.string(m, "notes", "the reaction", "") or "", ref=default_ref, path=r.path,
-        location=m.where("id"), conditions=conditions,
+        location=m.where("id"), conditions=conditions, content_digest=content_digest(m),
     )
 
 

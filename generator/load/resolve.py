@@ -5,6 +5,7 @@ from __future__ import annotations
 from generator.diagnostics import Finding, Location, error
 from generator.equation import EquationTerm, describe_imbalance
 from generator.formula import FormulaError, parse_formula
+from generator.load.conditions import resolve_conditions
 from generator.load.fields import did_you_mean
 from generator.load.reactions import RawReaction
 from generator.model import Reaction, Species, Term
@@ -153,11 +154,15 @@ def resolve_reactions(raw: dict[str, RawReaction], species: dict[str, Species],
             equation = rx.equation or ""
         else:
             continue
+        conditions = None
+        if rx.conditions is not None:
+            conditions = resolve_conditions(rx.conditions, _net(left, right), species, findings)
         out[rid] = Reaction(
             id=rid, name=rx.name, equation=equation, reactants=tuple(left),
             products=tuple(right), measured=rx.measured, combine=rx.combine,
             electrons=rx.electrons, family=rx.family, review=rx.review, notes=rx.notes,
-            ref=rx.ref, path=rx.path, location=rx.location, conditions=rx.conditions)
+            ref=rx.ref, path=rx.path, location=rx.location, conditions=conditions,
+            content_digest=rx.content_digest)
     return out
 
 

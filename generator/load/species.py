@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from generator.diagnostics import Location
+from generator.digest import content_digest
 from generator.formula import FormulaError, parse_formula
 from generator.load.fields import FileReader, kind_of
 from generator.load.review import from_memory_note, read_review
@@ -77,6 +78,7 @@ def read_species(r: FileReader, doc: Any) -> Species | None:
         ref=default_ref,
         path=r.path,
         location=m.where("id"),
+        content_digest=content_digest(m),
     )
 
 
