@@ -264,6 +264,17 @@ class Reaction:
 
 
 @dataclass(frozen=True)
+class Family:
+    """A reaction family's chart: ΔrG° of each member per mole of ``per`` (a species id);
+    without ``per``, per mole of reaction as written."""
+
+    name: str
+    title: str = ""
+    per: str | None = None
+    location: Location | None = None
+
+
+@dataclass(frozen=True)
 class Settings:
     """``handbook.yaml``."""
 
@@ -277,6 +288,7 @@ class Settings:
     tolerances: Mapping[str, float] = field(default_factory=dict)
     review_interval_days: int = 365
     adiabatic_caution_K: float = 200.0
+    families: Mapping[str, Family] = field(default_factory=dict)
     location: Location | None = None
 
 

@@ -59,6 +59,10 @@ HANDBOOK_FIELDS: dict[str, tuple[bool, dict, str]] = {
     "tolerances": (False, {"type": "object"}, "check tolerances"),
     "review_interval_days": (False, {"type": "integer"}, "reviews older than this are flagged"),
     "adiabatic_caution_K": (False, _NUM, "adiabatic rise above which a sheet warns"),
+    "families": (False, {"type": "object", "additionalProperties": {
+        "type": "object", "properties": {"title": _STR, "per": _SLUG},
+        "additionalProperties": False}},
+        "family charts: per family a title and the species id to normalise per mole of"),
     "ref": (False, _SLUG, "default reference"),
 }
 

@@ -114,6 +114,15 @@ def load_handbook(root: Path) -> tuple[Handbook | None, list[Finding]]:
         raw_reactions[rx.id] = rx
 
     reactions = resolve_reactions(raw_reactions, species, findings)
+    if settings is not None:
+        for fam in settings.families.values():
+            if fam.per is not None and fam.per not in species:
+                from generator.load.fields import did_you_mean
+
+                findings.append(error("unknown-species", f"family '{fam.name}' is normalised "
+                                      f"per mole of '{fam.per}', which is not a species",
+                                      fam.location, hint=did_you_mean(fam.per, tuple(species))
+                                      or "name a species id"))
     _check_reference_keys(references, species, reactions, findings)
 
     if settings is None or any(f.severity is Severity.ERROR for f in findings):

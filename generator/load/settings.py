@@ -8,7 +8,7 @@ from typing import Any
 from generator.caution import CAUTION
 from generator.diagnostics import Location
 from generator.load.fields import FileReader
-from generator.model import DEFAULT_TOLERANCES, Settings
+from generator.model import DEFAULT_TOLERANCES, Family, Settings
 from generator.source_schema import HANDBOOK_FIELDS
 from generator.units import UnitError, parse_pressure
 from generator.yamlsource import YList
@@ -57,9 +57,11 @@ def read_settings(r: FileReader, doc: Any) -> Settings | None:
                 m.where("review_interval_days"))
         interval = 365
     adiabatic = r.number(m, "adiabatic_caution_K", "the handbook", 200.0, positive=True)
+    families = _read_families(r, m)
     if title is None or edition is None or organisation is None:
         return None
     return Settings(
+        families=families,
         title=title, edition=edition, organisation=organisation, standard_pressure=pressure,
         temperatures=temps, units=units,
         caution=r.string(m, "caution", "the handbook", CAUTION) or CAUTION,
@@ -104,3 +106,23 @@ def _read_display_units(r: FileReader, m) -> dict[str, str]:
             continue
         units[key] = value
     return units
+
+
+def _read_families(r: FileReader, m) -> dict[str, Family]:
+    """``families: {name: {title, per}}``; ``per`` is checked against the species later."""
+    if "families" not in m:
+        return {}
+    fm = r.mapping(m["families"], m.where("families"), "'families'")
+    if fm is None:
+        return {}
+    out: dict[str, Family] = {}
+    for name in fm:
+        spec = r.mapping(fm[name], fm.where(name), f"family '{name}'")
+        if spec is None:
+            continue
+        r.check_fields(spec, {"title": (False, {}, ""), "per": (False, {}, "")},
+                       f"family '{name}'")
+        out[str(name)] = Family(str(name), r.string(spec, "title", "a family", "") or "",
+                                r.slug(spec, "per", "a family") if "per" in spec else None,
+                                fm.where(name))
+    return out
