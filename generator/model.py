@@ -224,12 +224,14 @@ class Feed:
 class Conditions:
     """A reaction's ``conditions:``: feeds, total pressures (Pa) and the temperature range
     (K) its sheet shows equilibrium conversion over; ``T_in`` (K) is the feed temperature
-    for the adiabatic rise.  No feeds: the reactants in stoichiometric amounts."""
+    for the adiabatic rise; ``voltage`` (V) the operating cell voltage an electrochemical
+    sheet shows the efficiencies at.  No feeds: the reactants in stoichiometric amounts."""
 
     feeds: tuple[Feed, ...] = ()
     pressures: tuple[float, ...] = (1.0e5,)
     T_range: tuple[float, float] | None = None
     T_in: float = 298.15
+    voltage: float | None = None
     location: Location | None = None
 
 

@@ -12,7 +12,7 @@ import io
 import multiprocessing
 import re
 from collections.abc import Callable, Sequence
-from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures import ProcessPoolExecutor, as_completed
 from typing import TYPE_CHECKING, Any
 from xml.sax.saxutils import escape, quoteattr
 
@@ -79,17 +79,56 @@ def _add_accessibility(svg: bytes, cid: str, title: str, description: str) -> by
     return svg[: match.start()] + new_root + svg[match.end() :]
 
 
-def render_many(specs: Sequence[ChartSpec], jobs: int = 1) -> list[bytes]:
-    """``render_svg`` over ``specs`` in order; jobs > 1 draws in a pool of fresh processes."""
+def render_many(
+    specs: Sequence[ChartSpec],
+    jobs: int = 1,
+    progress: Callable[[int], None] | None = None,
+) -> list[bytes]:
+    """``render_svg`` over ``specs`` in order.  jobs > 1 draws in one pool of worker processes
+    started for this call (forkserver with matplotlib preloaded, so each worker pays the
+    import once); ``progress`` is called with the number of charts finished so far."""
     specs = list(specs)
     jobs = max(1, min(int(jobs), len(specs)))
     if jobs == 1:
-        return [render_svg(spec) for spec in specs]
+        out = []
+        for spec in specs:
+            out.append(render_svg(spec))
+            if progress is not None:
+                progress(len(out))
+        return out
     methods = multiprocessing.get_all_start_methods()
-    ctx = multiprocessing.get_context("forkserver" if "forkserver" in methods else "spawn")
-    chunksize = max(1, len(specs) // (4 * jobs))
-    with ProcessPoolExecutor(max_workers=jobs, mp_context=ctx) as pool:
-        return list(pool.map(render_svg, specs, chunksize=chunksize))
+    if "forkserver" in methods:
+        ctx = multiprocessing.get_context("forkserver")
+        ctx.set_forkserver_preload(list(_PRELOAD))
+    else:
+        ctx = multiprocessing.get_context("spawn")
+    size = max(1, min(16, len(specs) // (6 * jobs)))  # small batches keep the cores busy
+    batches = [specs[i : i + size] for i in range(0, len(specs), size)]
+    results: list[list[bytes] | None] = [None] * len(batches)
+    done = 0
+    with ProcessPoolExecutor(
+        max_workers=jobs, mp_context=ctx, initializer=_warm_worker
+    ) as pool:
+        futures = {pool.submit(_render_batch, batch): i for i, batch in enumerate(batches)}
+        for future in as_completed(futures):
+            results[futures[future]] = future.result()
+            done += len(batches[futures[future]])
+            if progress is not None:
+                progress(done)
+    return [svg for batch in results if batch is not None for svg in batch]
+
+
+_PRELOAD = ("generator.charts.draw", "matplotlib.figure", "matplotlib.backends.backend_svg")
+
+
+def _warm_worker() -> None:
+    """Import matplotlib's figure and SVG backend before the first chart arrives."""
+    import matplotlib.figure  # noqa: F401
+    from matplotlib.backends import backend_svg  # noqa: F401
+
+
+def _render_batch(specs: Sequence[ChartSpec]) -> list[bytes]:
+    return [render_svg(spec) for spec in specs]
 
 
 # --- helpers shared by the chart kinds -------------------------------------------------------

@@ -8,6 +8,7 @@ Source form (every field optional)::
       pressures: [1 bar, 20 bar]   # total pressures, each with a unit (or one string)
       T: [700, 1300]               # K: the range the sheet's conversion chart spans
       T_in: 298.15                 # K: feed temperature for the adiabatic rise
+      voltage: 3.1 V               # operating cell voltage (electrochemical reactions)
 
 Without ``feeds`` the reactants are taken in stoichiometric amounts; without ``pressures``
 1 bar.  A feed names a species by id, ``{id}``, ``formula(phase)`` or a bare formula; a
@@ -28,7 +29,7 @@ from generator.diagnostics import Finding, Location, error
 from generator.formula import FormulaError, parse_formula
 from generator.load.fields import FileReader, did_you_mean, kind_of
 from generator.model import Conditions, Feed, Species
-from generator.units import UnitError, parse_pressure
+from generator.units import UnitError, parse_compact, parse_pressure
 from generator.yamlsource import YList, YMap
 
 CONDITIONS_FIELDS: dict[str, tuple[bool, dict, str]] = {
@@ -37,7 +38,9 @@ CONDITIONS_FIELDS: dict[str, tuple[bool, dict, str]] = {
     "pressures": (False, {"type": ["array", "string"]}, "total pressures, with units"),
     "T": (False, {"type": "array", "items": {"type": "number"}}, "temperature range, K"),
     "T_in": (False, {"type": "number"}, "feed temperature for the adiabatic rise, K"),
+    "voltage": (False, {"type": "string"}, "operating cell voltage, with a unit (V)"),
 }
+VOLT_UNITS = {"V": 1.0, "mV": 1.0e-3, "kV": 1.0e3}
 MAX_FEEDS = 20
 MAX_PRESSURES = 20
 
@@ -52,10 +55,39 @@ def read_conditions(r: FileReader, value: Any, loc: Location) -> Conditions | No
     pressures = _read_pressures(r, m)
     T_range = _read_range(r, m)
     T_in = r.number(m, "T_in", "'conditions'", 298.15, positive=True)
-    if not ok or feeds is None or pressures is None or T_range is False or T_in is None:
+    voltage = _read_voltage(r, m)
+    if not ok or feeds is None or pressures is None or T_range is False or T_in is None \
+            or voltage is False:
         return None
     return Conditions(feeds=feeds, pressures=pressures or (1.0e5,),
-                      T_range=T_range or None, T_in=T_in, location=m.loc)
+                      T_range=T_range or None, T_in=T_in, voltage=voltage, location=m.loc)
+
+
+def _read_voltage(r: FileReader, m: YMap) -> float | None | bool:
+    """The operating voltage in V, None when absent, False when wrong (reported)."""
+    raw = m.get("voltage")
+    if raw is None:
+        return None
+    hint = "write e.g. voltage: 3.1 V"
+    if isinstance(raw, bool) or not isinstance(raw, str):
+        r.error("type", f"'voltage' of 'conditions' must be a number with a unit, got "
+                f"{kind_of(raw)}", m.where("voltage"), hint)
+        return False
+    try:
+        w = parse_compact(raw)
+    except UnitError as exc:
+        r.error("bad-voltage", exc.message, m.where("voltage"), hint)
+        return False
+    factor = VOLT_UNITS.get(w.unit.strip())
+    if factor is None:
+        r.error("bad-voltage", f"unit '{w.unit}' of 'voltage' is not V, mV or kV",
+                m.where("voltage"), hint)
+        return False
+    V = w.value * factor
+    if not (0.0 < V < float("inf")):
+        r.error("bad-voltage", f"voltage {raw!r} must be above zero", m.where("voltage"), hint)
+        return False
+    return V
 
 
 def _read_feeds(r: FileReader, m: YMap) -> tuple[Feed, ...] | None:

@@ -257,7 +257,8 @@ def _species_levels(sr: SpeciesResult, computed: Computed, who: str) -> ChartEnt
 def reaction_charts(rr: ReactionResult, computed: Computed) -> list[ChartEntry]:
     """Gibbs chart, van 't Hoff plot and the H°, G° and S° level diagrams of a reaction."""
     out: list[ChartEntry] = []
-    for build in (_gibbs, _vant_hoff, _enthalpy_levels, _gibbs_levels, _entropy_levels):
+    for build in (_gibbs, _vant_hoff, _enthalpy_levels, _gibbs_levels, _entropy_levels,
+                  _conversion, _cell_voltages):
         entry = build(rr, computed)
         if entry is not None:
             out.append(entry)
@@ -408,6 +409,7 @@ def _entropy_levels(rr: ReactionResult, computed: Computed) -> ChartEntry | None
 
 __all__ = [
     "ChartEntry",
+    "handbook_charts",
     "species_charts",
     "reaction_charts",
     "extrapolated_ranges",
@@ -418,3 +420,165 @@ __all__ = [
     "fmt",
     "fmt_T",
 ]
+
+
+# --- design reference: conversion, cell voltages, families, element ladders -------------------
+
+
+def _finite_series(label: str, x, y, role: str) -> Series | None:
+    xs = np.asarray(x, dtype=float)
+    ys = np.asarray(y, dtype=float)
+    ok = np.isfinite(xs) & np.isfinite(ys)
+    if int(np.sum(ok)) < 2:
+        return None
+    return Series(label, tuple(xs[ok]), tuple(ys[ok]), role)
+
+
+def _role(i: int) -> str:
+    from generator.charts.style import GENERIC_ROLES
+
+    return GENERIC_ROLES[i % len(GENERIC_ROLES)]
+
+
+def _conversion(rr: ReactionResult, computed: Computed) -> ChartEntry | None:
+    """Equilibrium conversion of the first reactant against T, one line per (feed, P)."""
+    from generator.site import design_pages as design
+
+    T = design.chart_temperatures(rr, computed)
+    if len(T) < 2:
+        return None
+    cs = design.conversion_curves(rr, computed, T)
+    if cs is None:
+        return None
+    series = []
+    for i, (label, c) in enumerate(zip(cs.labels, cs.curves, strict=True)):
+        s = _finite_series(label, c.T, 100.0 * c.conversion, _role(i))
+        if s is not None:
+            series.append(s)
+    if not series:
+        return None
+    flags = np.any(np.array([c.extrapolated for c in cs.curves]), axis=0)
+    shaded = extrapolated_ranges(T, flags, None)
+    sp = computed.handbook.species[cs.reactant]
+    who = species_label(sp)
+    eq = equation_label(rr, computed)
+    T0, T1 = float(T[0]), float(T[-1])
+    spans = "; ".join(f"{s.label}: {fmt(s.y[0], 1)} % at {fmt_T(s.x[0])}, "
+                      f"{fmt(s.y[-1], 1)} % at {fmt_T(s.x[-1])}" for s in series)
+    spec = LineChartSpec(
+        title=f"{rr.reaction.name}: equilibrium conversion of {who}",
+        description=(f"Equilibrium conversion of {who} in {eq}, from {fmt_T(T0)} to "
+                     f"{fmt_T(T1)}, one line per pressure and feed. {spans}."
+                     f"{_shaded_text(shaded)}"),
+        x_label="T / K", y_label=f"conversion of {who} / %", series=tuple(series),
+        shaded=shaded)
+    caption = (f"Equilibrium conversion of {who}, {fmt_T(T0)}–{fmt_T(T1)}, ideal gases and "
+               "ideal solutions, from the feeds and pressures of the reaction's conditions.")
+    return ChartEntry("conversion", caption, spec)
+
+
+def _cell_voltages(rr: ReactionResult, computed: Computed) -> ChartEntry | None:
+    """E°(T) and Etn(T) of an electrochemical reaction, with the operating voltage."""
+    c = rr.curve
+    if not rr.reaction.electrons or c.E is None or len(c.T) < 2:
+        return None
+    series = [s for s in (_finite_series("E°", c.T, c.E, "primary"),
+                          _finite_series("Etn (thermoneutral)", c.T, c.Etn, "secondary"))
+              if s is not None]
+    cond = rr.reaction.conditions
+    V = cond.voltage if cond is not None else None
+    if V is not None:
+        # drawn with the sign of E°: an electrolysis (E° < 0) needs at least |E°|
+        sign = -1.0 if float(np.nanmax(np.asarray(c.E, dtype=float))) < 0 else 1.0
+        series.append(Series(f"operating voltage {fmt(sign * V, 2)} V",
+                             (float(c.T[0]), float(c.T[-1])), (sign * V, sign * V),
+                             "tertiary"))
+    if not series:
+        return None
+    T0, T1 = float(c.T[0]), float(c.T[-1])
+    text = "; ".join(f"{s.label} from {fmt(s.y[0], 3)} V to {fmt(s.y[-1], 3)} V"
+                     for s in series)
+    spec = LineChartSpec(
+        title=f"{rr.reaction.name}: cell voltages",
+        description=(f"Standard reversible voltage E° = −ΔrG°/(nF) and thermoneutral voltage "
+                     f"Etn = ΔrH°/(nF) of {equation_label(rr, computed)}, n = "
+                     f"{rr.reaction.electrons}, {fmt_T(T0)} to {fmt_T(T1)}: {text}."),
+        x_label="T / K", y_label="voltage / V", series=tuple(series))
+    caption = (f"E°(T) and the thermoneutral voltage Etn(T), {fmt_T(T0)}–{fmt_T(T1)}"
+               + (", with the operating voltage of the reaction's conditions (sign of E°)."
+                  if V is not None else "."))
+    return ChartEntry("cell-voltages", caption, spec)
+
+
+def family_chart(computed: Computed, name: str) -> ChartEntry | None:
+    """ΔrG°(T)/|ν_per| of every member of a family, crossovers of the lines marked."""
+    from generator.site import design_pages as design
+
+    fc = design.family_curves(computed, name)
+    names = {rid: computed.reactions[rid].reaction.name for rid in fc.members}
+    series = [s for i, rid in enumerate(fc.members)
+              if (s := _finite_series(names[rid], fc.T, fc.curves[rid], _role(i))) is not None]
+    if not series:
+        return None
+    # point labels stay short (the temperature); the page's table names each pair
+    points = tuple(MarkedPoint(t, y, f"{t:.0f} K") for _a, _b, t, y in fc.crossings)
+    title = fc.family.title or f"{name}: ΔrG° {fc.per_label}"
+    T0, T1 = float(fc.T[0]), float(fc.T[-1])
+    cross = ("; ".join(f"{names[a]} = {names[b]} at {t:.0f} K" for a, b, t, _y in fc.crossings)
+             + "." if fc.crossings else "No two lines cross in this range.")
+    skipped = (" Left out (no " + fc.family.per + "): "
+               + ", ".join(computed.reactions[r].reaction.name for r in fc.skipped) + "."
+               if fc.skipped else "")
+    per_symbol = (f"ΔrG°/|ν({species_label(computed.handbook.species[fc.family.per])})|"
+                  if fc.family.per in computed.handbook.species else "ΔrG°")
+    spec = LineChartSpec(
+        title=title,
+        description=(f"ΔrG° {fc.per_label} of the {len(series)} reactions of the family "
+                     f"{name}, {fmt_T(T0)} to {fmt_T(T1)}. {cross}{skipped}"),
+        x_label="T / K", y_label=f"{per_symbol} / (kJ mol⁻¹)", series=tuple(series),
+        points=points)
+    caption = (f"ΔrG°(T) {fc.per_label} of the family {name}; a marked point is a crossover "
+               "where two members' lines cross.")
+    return ChartEntry("family", caption, spec)
+
+
+def element_ladder(computed: Computed, symbol: str) -> ChartEntry | None:
+    """Every species containing ``symbol`` at its ΔfH° and ΔfG° per atom (two columns)."""
+    from generator.site import design_pages as design
+
+    levels = []
+    text = []
+    for p in design.ladder_points(computed, symbol):
+        label = species_label(computed.handbook.species[p.species])
+        if p.dfH is not None:
+            levels.append(Level(f"h-{p.species}", label, p.dfH, 0))
+        if p.dfG is not None:
+            levels.append(Level(f"g-{p.species}", label, p.dfG, 1))
+        text.append(f"{label}: ΔfH° {fmt(p.dfH) if p.dfH is not None else 'unknown'}, "
+                    f"ΔfG° {fmt(p.dfG) if p.dfG is not None else 'unknown'} {KJ}")
+    if not levels:
+        return None
+    spec = LevelDiagramSpec(
+        title=f"Ladder of {symbol}: ΔfH° and ΔfG° per atom of {symbol}, 298.15 K",
+        description=(f"Species containing {symbol} placed by formation enthalpy (left) and "
+                     f"formation Gibbs energy (right) per mole of {symbol} atoms at 298.15 K, "
+                     f"elements in their reference states at zero: {'; '.join(text)}."),
+        levels=tuple(levels), unit_label=f"per mol {symbol} / (kJ mol⁻¹)",
+        column_labels=(f"ΔfH° / n({symbol})", f"ΔfG° / n({symbol})"))
+    caption = (f"Species containing {symbol} by ΔfH° and ΔfG° per atom of {symbol} at "
+               "298.15 K; lower is more stable relative to the elements.")
+    return ChartEntry("ladder", caption, spec)
+
+
+def handbook_charts(computed: Computed) -> dict[str, list[ChartEntry]]:
+    """Charts of the handbook-wide pages, keyed ``family:<name>`` and ``element:<symbol>``."""
+    from generator.site import design_pages as design
+
+    out: dict[str, list[ChartEntry]] = {}
+    for name in design.family_names(computed):
+        entry = family_chart(computed, name)
+        out[f"family:{name}"] = [entry] if entry is not None else []
+    for symbol in design.element_symbols(computed):
+        entry = element_ladder(computed, symbol)
+        out[f"element:{symbol}"] = [entry] if entry is not None else []
+    return out

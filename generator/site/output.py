@@ -3,14 +3,21 @@
 ``os.replace`` onto a non-empty folder fails, so the swap is: rename the old site aside,
 rename the new one into place, delete the old.  A folder is only ever replaced if it is
 empty or carries the marker file a previous build wrote.
+
+A file whose bytes equal the previous site's file is not rewritten: the old file is
+hard-linked (or, across file systems, copied with its times) into the new tree, so its
+modification time stays and mirrors copy only what changed.  When nothing at all changed the
+previous site is left exactly as it is and no swap happens.
 """
 
 from __future__ import annotations
 
 import os
 import shutil
+import stat
 import tempfile
 from collections.abc import Mapping
+from dataclasses import dataclass
 from pathlib import Path, PurePosixPath
 
 MARKER = ".thermofolio-site"
@@ -37,18 +44,69 @@ def _checked(rel: str) -> PurePosixPath:
     return path
 
 
-def write_site(out: Path, files: Mapping[str, bytes]) -> None:
+@dataclass(frozen=True)
+class WriteResult:
+    """What a write did: files new or changed, files kept from the previous site, old files
+    dropped, and whether the folder was swapped (False: nothing changed, nothing touched)."""
+
+    rewritten: int
+    kept: int
+    removed: int
+    swapped: bool
+
+
+def _old_files(out: Path) -> dict[str, int]:
+    """Regular files of a previous marked site: site path -> size."""
+    if not (out / MARKER).is_file():
+        return {}
+    found: dict[str, int] = {}
+    for dirpath, _dirs, names in os.walk(out):
+        rel_dir = os.path.relpath(dirpath, out)
+        for name in names:
+            st = os.lstat(os.path.join(dirpath, name))
+            if stat.S_ISREG(st.st_mode):
+                rel = name if rel_dir == "." else f"{rel_dir}/{name}".replace(os.sep, "/")
+                found[rel] = st.st_size
+    return found
+
+
+def _same_bytes(path: Path, data: bytes, size: int | None) -> bool:
+    if size is None or size != len(data):
+        return False
+    try:
+        return path.read_bytes() == data
+    except OSError:
+        return False
+
+
+def write_site(out: Path, files: Mapping[str, bytes]) -> WriteResult:
     """Write ``files`` (site path -> bytes, plus the marker) as the folder ``out``, atomically
     as far as the file system allows; on any failure the previous site stays as it was."""
     out = Path(os.path.abspath(out))
+    everything = {**files, MARKER: MARKER_TEXT}
+    for rel in everything:
+        _checked(rel)
+    old = _old_files(out) if out.is_dir() else {}
+    same = {rel for rel, data in everything.items()
+            if _same_bytes(out.joinpath(*PurePosixPath(rel).parts), data, old.get(rel))}
+    removed = len(old.keys() - everything.keys())
+    if len(same) == len(everything) and not removed:
+        return WriteResult(rewritten=0, kept=len(same), removed=0, swapped=False)
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.new-", dir=out.parent))
     aside: Path | None = None
     try:
-        for rel in sorted({**files, MARKER: MARKER_TEXT}):
-            target = tmp.joinpath(*_checked(rel).parts)
-            target.parent.mkdir(parents=True, exist_ok=True)
-            target.write_bytes(MARKER_TEXT if rel == MARKER else files[rel])
+        made: set[Path] = set()
+        for rel in sorted(everything):
+            parts = _checked(rel).parts
+            target = tmp.joinpath(*parts)
+            if target.parent not in made:
+                target.parent.mkdir(parents=True, exist_ok=True)
+                made.add(target.parent)
+            if rel in same:
+                _keep(out.joinpath(*parts), target)
+            else:
+                target.write_bytes(everything[rel])
         os.chmod(tmp, 0o755)
         if out.exists():
             aside = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
@@ -66,3 +124,13 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> None:
         raise
     if aside is not None:
         shutil.rmtree(aside, ignore_errors=True)
+    return WriteResult(rewritten=len(everything) - len(same), kept=len(same),
+                       removed=removed, swapped=True)
+
+
+def _keep(old: Path, new: Path) -> None:
+    """Put the previous site's unchanged file at ``new``, keeping its modification time."""
+    try:
+        os.link(old, new)
+    except OSError:
+        shutil.copy2(old, new)

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from fractions import Fraction
 from html import escape
 
@@ -27,7 +27,7 @@ from generator.thermo.constants import T_REF
 
 MINUS = "\u2212"
 MISSING = "—"
-DECIMALS = {"T": 2, "kJ": 3, "J": 3, "log10K": 3, "V": 4, "M": 4}
+DECIMALS = {"T": 2, "kJ": 3, "J": 3, "log10K": 3, "V": 4, "M": 4, "pct": 1}
 PHASE_NAMES = {"g": "gas", "l": "liquid", "cr": "crystal", "s": "solid", "aq": "aqueous solution"}
 STATUS_NAMES = {"draft": "draft — not yet checked", "checked": "checked",
                 "approved": "approved"}
@@ -183,10 +183,14 @@ def equation_text(rr: ReactionResult, species: Mapping[str, Species]) -> str:
 
 @dataclass(frozen=True)
 class SiteMeta:
-    """Facts about this build that publish gathers (build date, source revision)."""
+    """Facts about this build that publish gathers: build date, source revision, the recent
+    git history of each source file (path relative to the sources → commits, newest first)
+    and, for ``build --since REV``, the edition diff (generator.edition_diff.DiffResult)."""
 
     build_date: str
     revision: str
+    histories: Mapping[str, Sequence] = field(default_factory=dict)
+    changes: object | None = None
 
 
 @dataclass(frozen=True)
@@ -222,10 +226,26 @@ def _base(site: dict, path: str, title: str, nav: str, review: dict | None = Non
             "review": review, "search": False}
 
 
-def _review(item) -> dict:
+def _review(item, coverage: dict | None = None) -> dict:
     r = item.review
     return {"status": r.status, "status_text": STATUS_NAMES.get(r.status, r.status),
-            "by": r.by or MISSING, "date": r.date or MISSING, "note": r.note or ""}
+            "by": r.by or MISSING, "date": r.date or MISSING, "note": r.note or "",
+            "coverage": coverage}
+
+
+def _provenance_parts(computed: Computed, kind: str, item: str, path: str, root: str,
+                      meta: SiteMeta | None) -> dict:
+    """Review coverage, spreads, network values and source history of one sheet."""
+    from generator.site import provenance_view as pv
+
+    return {
+        "spreads": pv.spread_rows(computed, item),
+        "network": (pv.network_view(computed, item, root) if kind == "species" else
+                    {"fixed": None, "reconciled": None,
+                     "rows": pv.observation_rows(computed, item, root)}),
+        "history": pv.history_view(computed, path, meta.histories if meta else {},
+                                   meta.revision if meta else pv.NOT_IN_GIT),
+    }
 
 
 def _ref_index(T: np.ndarray) -> int | None:
@@ -370,13 +390,17 @@ def _reaction_link(computed: Computed, rid: str, root: str) -> dict:
 
 
 def species_context(computed: Computed, sid: str, site: dict, findings: Sequence[Finding],
-                    charts: Sequence[ChartView], notes_html: str) -> dict:
+                    charts: Sequence[ChartView], notes_html: str,
+                    meta: SiteMeta | None = None) -> dict:
+    from generator.site.provenance_view import coverage_view
+
     sr = computed.species[sid]
     sp = sr.species
     path = f"species/{sid}.html"
     ctx = _base(site, path, f"{sp.name} — {formula_text(sp.formula)}({sp.phase})", "species",
-                _review(sp))
+                _review(sp, coverage_view(computed, "species", sid)))
     root = ctx["root"]
+    ctx.update(_provenance_parts(computed, "species", sid, sp.path, root, meta))
     line_charts, level_charts = _charts(charts, root)
     ctx.update({
         "id": sid, "name": sp.name, "label": species_label(sp),
@@ -556,13 +580,21 @@ def step_rows(computed: Computed, rr: ReactionResult, root: str) -> tuple[list[d
 
 
 def reaction_context(computed: Computed, rid: str, site: dict, findings: Sequence[Finding],
-                     charts: Sequence[ChartView], notes_html: str) -> dict:
+                     charts: Sequence[ChartView], notes_html: str,
+                     meta: SiteMeta | None = None) -> dict:
+    from generator.site.design_pages import family_href, reaction_design
+    from generator.site.provenance_view import coverage_view
+
     rr = computed.reactions[rid]
     rx = rr.reaction
     species = computed.handbook.species
     path = f"reactions/{rid}.html"
-    ctx = _base(site, path, rx.name, "reactions", _review(rx))
+    ctx = _base(site, path, rx.name, "reactions",
+                _review(rx, coverage_view(computed, "reaction", rid)))
     root = ctx["root"]
+    ctx.update(_provenance_parts(computed, "reaction", rid, rx.path, root, meta))
+    ctx.update(reaction_design(rr, computed))
+    ctx["families"] = [{"name": fam, "href": root + family_href(fam)} for fam in rx.family]
     columns, rows = reaction_table(rr)
     contributions, sums = contribution_rows(rr, species, root)
     steps, step_total = step_rows(computed, rr, root)
@@ -731,8 +763,12 @@ def _from_memory_items(computed: Computed) -> list[dict]:
     return out
 
 
-def audit_context(computed: Computed, site: dict, findings: Sequence[Finding]) -> dict:
+def audit_context(computed: Computed, site: dict, findings: Sequence[Finding],
+                  has_changes: bool = False) -> dict:
+    from generator.site.provenance_view import audit_extras
+
     ctx = _base(site, "audit.html", "Audit", "audit")
+    ctx.update(audit_extras(computed, has_changes))
     groups = []
     for sev in Severity:
         items = [finding_view(computed, f, "") for f in findings if f.severity is sev]
@@ -750,8 +786,12 @@ def audit_context(computed: Computed, site: dict, findings: Sequence[Finding]) -
     return ctx
 
 
-def index_context(computed: Computed, site: dict, findings: Sequence[Finding]) -> dict:
+def index_context(computed: Computed, site: dict, findings: Sequence[Finding],
+                  has_changes: bool = False) -> dict:
+    from generator.site.design_pages import element_href, family_href, family_names
+
     ctx = _base(site, "index.html", "Home", "home")
+    ctx["changes_href"] = "changes.html" if has_changes else ""
     ctx["search"] = True
     hb = computed.handbook
     species = [computed.species[s].species for s in sorted(computed.species)]
@@ -760,20 +800,22 @@ def index_context(computed: Computed, site: dict, findings: Sequence[Finding]) -
         return {"href": f"species/{sp.id}.html", "label": species_label(sp), "name": sp.name}
 
     elements = sorted({el for sp in species for el, _n in sp.elements})
-    families = sorted({fam for r in hb.reactions.values() for fam in r.family})
+    families = family_names(computed)
     ctx.update({
         "counts": [{"label": "species", "count": str(len(hb.species)), "href": "species.html"},
                    {"label": "reactions", "count": str(len(hb.reactions)),
                     "href": "reactions.html"},
                    {"label": "references", "count": str(len(hb.references)),
                     "href": "references.html"}],
-        "elements": [{"symbol": el, "species": [link(sp) for sp in species
-                                                 if el in sp.element_counts]}
+        "elements": [{"symbol": el, "href": element_href(el),
+                      "species": [link(sp) for sp in species if el in sp.element_counts]}
                      for el in elements],
         "phases": [{"label": PHASE_NAMES[ph], "species": [link(sp) for sp in species
                                                           if sp.phase == ph]}
                    for ph in PHASES if any(sp.phase == ph for sp in species)],
-        "families": [{"name": fam, "reactions": [
+        "families": [{"name": fam, "href": family_href(fam),
+                      "title": (hb.settings.families[fam].title
+                                if fam in hb.settings.families else ""), "reactions": [
             {"href": f"reactions/{rid}.html", "name": hb.reactions[rid].name}
             for rid in sorted(hb.reactions) if fam in hb.reactions[rid].family]}
             for fam in families],
@@ -827,26 +869,34 @@ def build_pages(computed: Computed, findings: Sequence[Finding], meta: SiteMeta,
                 ) -> list[Page]:
     """Every page of the site, in a stable order.  ``charts`` and ``notes`` (rendered HTML)
     are keyed ``species:<id>`` / ``reaction:<id>``; ``findings`` from all_findings."""
+    from generator.site.design_pages import design_pages
+    from generator.site.provenance_view import changes_context
+
     site = _site(computed, meta)
     uses = reference_uses(computed)
+    has_changes = meta.changes is not None
     pages = [
-        Page("index.html", "index.html", index_context(computed, site, findings)),
+        Page("index.html", "index.html", index_context(computed, site, findings, has_changes)),
         Page("species.html", "species_index.html", species_index(computed, site)),
         Page("reactions.html", "reactions_index.html", reactions_index(computed, site)),
         Page("references.html", "references_index.html",
              references_index(computed, site, uses)),
         Page("conventions.html", "conventions.html", conventions_context(computed, site)),
-        Page("audit.html", "audit.html", audit_context(computed, site, findings)),
+        Page("audit.html", "audit.html", audit_context(computed, site, findings, has_changes)),
         Page("search.html", "search.html", search_context(site)),
     ]
+    if has_changes:
+        pages.append(Page("changes.html", "changes.html",
+                          changes_context(computed, meta.changes, site)))
+    pages += design_pages(computed, site, charts)
     for sid in sorted(computed.species):
         key = f"species:{sid}"
         pages.append(Page(f"species/{sid}.html", "species.html", species_context(
-            computed, sid, site, findings, charts.get(key, ()), notes.get(key, ""))))
+            computed, sid, site, findings, charts.get(key, ()), notes.get(key, ""), meta)))
     for rid in sorted(computed.reactions):
         key = f"reaction:{rid}"
         pages.append(Page(f"reactions/{rid}.html", "reaction.html", reaction_context(
-            computed, rid, site, findings, charts.get(key, ()), notes.get(key, ""))))
+            computed, rid, site, findings, charts.get(key, ()), notes.get(key, ""), meta)))
     for ref in sorted(computed.handbook.references):
         pages.append(Page(f"references/{ref}.html", "reference.html",
                           reference_context(computed, ref, site, uses)))

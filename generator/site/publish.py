@@ -14,6 +14,7 @@ import subprocess
 import sys
 import time
 from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
 
@@ -28,7 +29,9 @@ from generator.exports import (
     species_rows,
 )
 from generator.model import Handbook
+from generator.progress import Progress
 from generator.site import assets, markdown_notes, output, pages
+from generator.site.chart_cache import ChartCache, cache_key, default_folder
 
 NOT_IN_GIT = "not under version control"
 SPECIES_CSV = ("T", "Cp", "H_minus_H298", "S", "G", "gef", "dfH", "u.dfH", "dfG", "u.dfG",
@@ -38,11 +41,14 @@ REACTION_CSV = ("T", "drH", "u.drH", "drS", "u.drS", "drG", "u.drG", "drCp", "dr
 SEARCH_GLOBAL = "THERMOFOLIO_SEARCH"
 
 
-def render_many(specs, jobs: int = 1) -> list[bytes]:
+def render_many(specs, jobs: int = 1, progress=None) -> list[bytes]:
     """generator.charts.render_many, imported late (matplotlib only when charts are drawn)."""
     from generator.charts import render_many as draw
 
-    return draw(specs, jobs)
+    return draw(specs, jobs, progress)
+
+
+_OWN_RENDER_MANY = render_many
 
 
 # --- facts about the sources (I/O, before any writing) -------------------------------------
@@ -90,13 +96,18 @@ def chart_entries(computed: Computed) -> dict[str, list]:
     for rid in sorted(computed.reactions):
         out[f"reaction:{rid}"] = list(chart_specs.reaction_charts(computed.reactions[rid],
                                                                    computed))
+    out.update(chart_specs.handbook_charts(computed))  # family and element pages
     return out
 
 
-def chart_path(spec) -> str:
+def chart_digest(spec) -> str:
     from generator.charts import spec_digest
 
-    return f"charts/{spec_digest(spec)[:16]}.svg"
+    return spec_digest(spec)
+
+
+def chart_path(spec, digest: str | None = None) -> str:
+    return f"charts/{(digest or chart_digest(spec))[:16]}.svg"
 
 
 def _is_level(spec) -> bool:
@@ -108,33 +119,76 @@ def _is_level(spec) -> bool:
 def plan_charts(entries: Mapping[str, Sequence]
                 ) -> tuple[dict[str, list[pages.ChartView]], dict[str, object]]:
     """Views per item and the distinct specs to draw, by their content-addressed path."""
-    views: dict[str, list[pages.ChartView]] = {}
-    specs: dict[str, object] = {}
-    for key in sorted(entries):
-        for entry in entries[key]:
-            path = chart_path(entry.spec)
-            specs.setdefault(path, entry.spec)
-            views.setdefault(key, []).append(pages.ChartView(
-                path=path, caption=entry.caption, alt=entry.spec.description,
-                level=_is_level(entry.spec)))
+    views, specs, _digests = _plan(entries)
     return views, specs
 
 
-def draw_charts(specs: Mapping[str, object], previous: Path, jobs: int) -> tuple[dict, int]:
-    """SVG bytes per chart path; a chart the previous site already holds (same content
-    address, so same spec, style and versions) is reused instead of redrawn."""
+def _plan(entries: Mapping[str, Sequence]):
+    views: dict[str, list[pages.ChartView]] = {}
+    specs: dict[str, object] = {}
+    digests: dict[str, str] = {}
+    for key in sorted(entries):
+        for entry in entries[key]:
+            digest = chart_digest(entry.spec)
+            path = chart_path(entry.spec, digest)
+            if path not in specs:
+                specs[path] = entry.spec
+                digests[path] = digest
+            views.setdefault(key, []).append(pages.ChartView(
+                path=path, caption=entry.caption, alt=entry.spec.description,
+                level=_is_level(entry.spec)))
+    return views, specs, digests
+
+
+@dataclass(frozen=True)
+class ChartStats:
+    """Charts published, drawn this build, taken from the cache, and cache entries rejected."""
+
+    total: int
+    drawn: int
+    cached: int
+    rejected: int
+
+
+def _renderer_name() -> str:
+    """"" for the real drawer; a stand-in's qualified name salts its cache keys."""
+    fn = render_many
+    if fn is _OWN_RENDER_MANY:
+        return ""
+    name = getattr(fn, "__qualname__", type(fn).__qualname__)
+    return f"{getattr(fn, '__module__', type(fn).__module__)}.{name}"
+
+
+def draw_charts(specs: Mapping[str, object], digests: Mapping[str, str],
+                cache: ChartCache | None, jobs: int, quiet: bool = False,
+                start: float | None = None) -> tuple[dict[str, bytes], ChartStats]:
+    """SVG bytes per chart path: sound cache entries first, the rest drawn once in a pool of
+    ``jobs`` processes and stored back.  matplotlib is imported only if something is drawn."""
+    renderer = _renderer_name()
     out: dict[str, bytes] = {}
     todo: list[str] = []
     for path in sorted(specs):
-        old = previous / path
-        if (previous / output.MARKER).is_file() and old.is_file():
-            out[path] = old.read_bytes()
-        else:
+        svg = cache.get(cache_key(digests[path], renderer)) if cache is not None else None
+        if svg is None:
             todo.append(path)
+        else:
+            out[path] = svg
     if todo:
-        drawn = render_many([specs[p] for p in todo], jobs if len(todo) > 8 else 1)
-        out.update(zip(todo, drawn, strict=True))
-    return out, len(todo)
+        bar = Progress("drawing charts", len(todo), quiet=quiet, start=start)
+        todo_specs = [specs[p] for p in todo]
+        n_jobs = jobs if len(todo) > 2 * jobs else 1
+        if renderer:  # a stand-in renderer takes (specs, jobs)
+            drawn = render_many(todo_specs, n_jobs)
+        else:
+            drawn = render_many(todo_specs, n_jobs, bar.update)
+        bar.close()
+        for path, svg in zip(todo, drawn, strict=True):
+            out[path] = svg
+            if cache is not None:
+                cache.put(cache_key(digests[path], renderer), svg)
+    rejected = cache.rejected if cache is not None else 0
+    return out, ChartStats(total=len(out), drawn=len(todo), cached=len(out) - len(todo),
+                           rejected=rejected)
 
 
 # --- exports (pure) ------------------------------------------------------------------------
@@ -237,29 +291,54 @@ def notes_html(computed: Computed) -> dict[str, str]:
     return out
 
 
+def default_jobs() -> int:
+    """Worker processes for drawing: the cores this process may use."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):
+        return max(1, os.cpu_count() or 1)
+
+
+def chart_cache_for(args, root: Path) -> ChartCache | None:
+    """The cache of ``--cache DIR``, none with ``--no-cache``, else the default folder."""
+    if getattr(args, "no_cache", False):
+        return None
+    folder = getattr(args, "cache", None)
+    return ChartCache(Path(folder) if folder else default_folder(root))
+
+
 def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, args,
-            start_time: float) -> int:
-    """Publish the site into ``out_path``; returns the exit code (0 written, 1 refused)."""
+            start_time: float, computed: Computed | None = None) -> int:
+    """Publish the site into ``out_path``; returns the exit code (0 written, 1 refused).
+    ``computed`` is the engine's result for ``handbook`` when the caller already has it."""
     out = Path(out_path)
     quiet = bool(getattr(args, "quiet", False))
     why = output.refusal(out)
     if why:
         print(f"thermofolio build: {why}; nothing written", file=sys.stderr)
         return 1
-    computed = compute_handbook(handbook)
+    if computed is None:
+        computed = compute_handbook(handbook)
     every = pages.all_findings(computed, findings)
     root = Path(handbook.root)
-    meta = pages.SiteMeta(build_date=build_date(root), revision=source_revision(root))
-    views, specs = plan_charts(chart_entries(computed))
+    from generator.history import source_histories
+    from generator.site import manifest
+
+    meta = pages.SiteMeta(build_date=build_date(root), revision=source_revision(root),
+                          histories=source_histories(root),
+                          changes=getattr(args, "since_diff", None))
+    views, specs, digests = _plan(chart_entries(computed))
     site_pages = pages.build_pages(computed, every, meta, views, notes_html(computed))
     files = render_pages(site_pages)
     files.update(export_files(computed, every))
     files.update(assets.static_assets())
-    jobs = int(getattr(args, "jobs", 0) or min(4, os.cpu_count() or 1))
-    charts, drawn = draw_charts(specs, out, jobs)
+    jobs = int(getattr(args, "jobs", 0) or default_jobs())
+    charts, stats = draw_charts(specs, digests, chart_cache_for(args, root), jobs,
+                                quiet=quiet, start=start_time)
     files.update(charts)
+    files[manifest.MANIFEST] = manifest.manifest_bytes(files, site_pages, computed, meta)
     try:
-        output.write_site(out, files)
+        result = output.write_site(out, files)
     except OSError as exc:
         print(f"thermofolio build: cannot write {out}: {exc}; the previous site is unchanged",
               file=sys.stderr)
@@ -267,8 +346,10 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
     if not quiet:
         n_warn = sum(f.severity is Severity.WARNING for f in every)
         elapsed = time.perf_counter() - start_time
-        print(f"thermofolio build: {len(site_pages)} pages, {len(charts)} charts "
-              f"({drawn} drawn, {len(charts) - drawn} reused), {n_warn} warnings, "
-              f"{elapsed:.1f} s -> {out}", file=sys.stderr)
+        bad = f", {stats.rejected} bad cache entries redrawn" if stats.rejected else ""
+        print(f"thermofolio build: {len(site_pages)} pages, {stats.total} charts "
+              f"({stats.drawn} drawn, {stats.cached} cached{bad}), "
+              f"{result.rewritten} files rewritten, {result.kept} unchanged, "
+              f"{n_warn} warnings, {elapsed:.1f} s -> {out}", file=sys.stderr)
         print(f"CAUTION: {handbook.settings.caution or CAUTION}", file=sys.stderr)
     return 0

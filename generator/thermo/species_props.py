@@ -39,6 +39,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 
@@ -127,6 +128,18 @@ def _governing(switches: np.ndarray, T: np.ndarray) -> np.ndarray:
 def _anchored(pieces: list[CpPiece], switches: np.ndarray, idx: np.ndarray, T: np.ndarray,
               anti) -> np.ndarray:
     """integral_{298.15}^{T} of the piecewise model, with ``anti`` the antiderivative."""
+    offset = _offsets(pieces, switches, anti)
+    out = np.empty_like(T)
+    for i, p in enumerate(pieces):
+        sel = idx == i
+        if np.any(sel):
+            out[sel] = anti(p, T[sel]) + offset[i]
+    return out
+
+
+def _offsets(pieces: list[CpPiece], switches: np.ndarray, anti) -> list[float]:
+    """Per piece, the constant that joins its antiderivative to 0 at 298.15 K through the
+    switch points (cumulative values carried across each switch)."""
     n = len(pieces)
     k = int(_governing(switches, np.asarray([T_REF]))[0])
     offset = [0.0] * n
@@ -137,12 +150,65 @@ def _anchored(pieces: list[CpPiece], switches: np.ndarray, idx: np.ndarray, T: n
     for i in range(k, 0, -1):  # downwards across switch i-1
         s = switches[i - 1]
         offset[i - 1] = float(anti(pieces[i], s)) + offset[i] - float(anti(pieces[i - 1], s))
-    out = np.empty_like(T)
-    for i, p in enumerate(pieces):
-        sel = idx == i
-        if np.any(sel):
-            out[sel] = anti(p, T[sel]) + offset[i]
-    return out
+    return offset
+
+
+@dataclass(frozen=True, eq=False)
+class _Plan:
+    """What a species' Cp pieces give independently of T: order, switches, offsets."""
+
+    pieces: tuple[CpPiece, ...]
+    switches: np.ndarray
+    models: tuple[tuple, ...]
+    h_offset: tuple[float, ...]
+    s_offset: tuple[float, ...]
+    covered: tuple[float, float]
+
+
+def _make_plan(cp: tuple[CpPiece, ...]) -> _Plan:
+    pieces, switches = _layout(cp)
+    models = tuple(cp_models._model(p) for p in pieces)
+    return _Plan(
+        pieces=tuple(pieces), switches=switches, models=models,
+        h_offset=tuple(_offsets(pieces, switches, cp_models.h_antiderivative)),
+        s_offset=tuple(_offsets(pieces, switches, cp_models.s_antiderivative)),
+        covered=(min(p.Tmin for p in pieces), max(p.Tmax for p in pieces)),
+    )
+
+
+_cached_plan = lru_cache(maxsize=8192)(_make_plan)
+
+
+def _plan(cp) -> _Plan:
+    try:
+        return _cached_plan(tuple(cp))
+    except TypeError:  # a piece with unhashable fields: plan without the cache
+        return _make_plan(tuple(cp))
+
+
+def _piecewise(plan: _Plan, T: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Cp, integral of Cp dT and of Cp/T dT from 298.15 K, each piece on the T it governs
+    (contiguous slices when T is sorted, masks otherwise)."""
+    pieces, models = plan.pieces, plan.models
+    if len(pieces) == 1:
+        (cp_f, h_f, s_f), p = models[0], pieces[0]
+        return cp_f(p, T), h_f(p, T) + plan.h_offset[0], s_f(p, T) + plan.s_offset[0]
+    Cp, dH, dS = np.empty_like(T), np.empty_like(T), np.empty_like(T)
+    if T.size < 2 or bool(np.all(T[1:] >= T[:-1])):
+        cuts = [0, *np.searchsorted(T, plan.switches, side="left").tolist(), T.size]
+        parts = [slice(a, b) for a, b in zip(cuts[:-1], cuts[1:], strict=True)]
+    else:
+        idx = _governing(plan.switches, T)
+        parts = [idx == i for i in range(len(pieces))]
+    for i, sel in enumerate(parts):
+        Ti = T[sel]
+        if Ti.size == 0:
+            continue
+        (cp_f, h_f, s_f), p = models[i], pieces[i]
+        Cp[sel] = cp_f(p, Ti)
+        dH[sel] = h_f(p, Ti) + plan.h_offset[i]
+        dS[sel] = s_f(p, Ti) + plan.s_offset[i]
+    return Cp, dH, dS
 
 
 def species_functions(species: Species, T: np.ndarray | Sequence[float] | float
@@ -160,20 +226,13 @@ def species_functions(species: Species, T: np.ndarray | Sequence[float] | float
     covered: tuple[float, float] | None = None
     if species.cp:
         basis = "cp-pieces"
-        pieces, switches = _layout(species.cp)
-        idx = _governing(switches, Tf)
-        Cp = np.empty_like(Tf)
-        for i, p in enumerate(pieces):
-            sel = idx == i
-            if np.any(sel):
-                Cp[sel] = cp_models.cp(p, Tf[sel])
-        dH = _anchored(pieces, switches, idx, Tf, cp_models.h_antiderivative)
-        dS = _anchored(pieces, switches, idx, Tf, cp_models.s_antiderivative)
+        plan = _plan(species.cp)
+        Cp, dH, dS = _piecewise(plan, Tf)
         inside = np.zeros(Tf.shape, dtype=bool)
-        for p in pieces:
+        for p in plan.pieces:
             inside |= (Tf >= p.Tmin) & (Tf <= p.Tmax)
         extrapolated = ~inside & ~at_ref
-        covered = (min(p.Tmin for p in pieces), max(p.Tmax for p in pieces))
+        covered = plan.covered
     elif not np.isnan(Cp298):
         basis = "constant-Cp"
         Cp = np.full_like(Tf, Cp298)

@@ -1,0 +1,117 @@
+"""The chart cache: drawn SVGs kept outside the site, addressed by what they show.
+
+An entry is ``<folder>/<key[:2]>/<key>.svg`` where ``key`` is the sha256 of the chart spec's
+canonical JSON, the house-style version and the matplotlib and thermofolio versions
+(generator.charts.spec_digest), optionally salted with the drawing function's name.  The file
+is the SVG document followed by one trailing comment line holding the sha256 and length of the
+document's bytes, so a truncated or corrupted entry is detected on reading, reported as a miss
+and redrawn; it is never published.  Entries are written to a temporary file and renamed into
+place, so a reader sees either no entry or a whole one.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import re
+import tempfile
+from pathlib import Path
+
+DEFAULT_FOLDER = ".thermofolio-cache"
+_TRAILER = re.compile(rb"<!-- thermofolio-cache sha256=([0-9a-f]{64}) bytes=([0-9]+) -->\n\Z")
+_KEY = re.compile(r"[0-9a-f]{64}")
+
+
+def default_folder(sources: Path) -> Path:
+    """``.thermofolio-cache`` beside the sources folder (its parent holds both)."""
+    return Path(os.path.abspath(sources)).parent / DEFAULT_FOLDER
+
+
+def cache_key(spec_digest: str, renderer: str = "") -> str:
+    """The entry key: the spec digest itself, or salted with the drawing function's name when
+    a stand-in renderer is used, so its output never mixes with real charts."""
+    if not renderer:
+        return spec_digest
+    return hashlib.sha256(f"{spec_digest}\n{renderer}".encode()).hexdigest()
+
+
+def looks_like_svg(svg: bytes) -> bool:
+    """A cheap parse check: an XML declaration or <svg> first, a closing </svg> last."""
+    head = svg.lstrip()[:256]
+    return head.startswith((b"<?xml", b"<svg", b"<!DOCTYPE svg")) and \
+        svg.rstrip().endswith(b"</svg>")
+
+
+class ChartCache:
+    """Get and put SVG bytes by key; counts hits, misses and rejected (corrupt) entries."""
+
+    def __init__(self, folder: Path) -> None:
+        self.folder = Path(folder)
+        self.hits = 0
+        self.misses = 0
+        self.rejected = 0
+
+    def entry(self, key: str) -> Path:
+        if not _KEY.fullmatch(key):
+            raise ValueError(f"not a chart cache key: {key!r}")
+        return self.folder / key[:2] / f"{key}.svg"
+
+    def get(self, key: str) -> bytes | None:
+        """The SVG stored under ``key``, or None if absent or failing its checks (a failing
+        entry is deleted so the next put replaces it)."""
+        path = self.entry(key)
+        try:
+            data = path.read_bytes()
+        except OSError:
+            self.misses += 1
+            return None
+        svg = _verified(data)
+        if svg is None:
+            self.rejected += 1
+            self.misses += 1
+            try:
+                path.unlink()
+            except OSError:
+                pass
+            return None
+        self.hits += 1
+        return svg
+
+    def put(self, key: str, svg: bytes) -> None:
+        """Store ``svg`` under ``key`` atomically; a cache that cannot be written is skipped
+        (the build still publishes the freshly drawn chart)."""
+        path = self.entry(key)
+        trailer = (f"<!-- thermofolio-cache sha256={hashlib.sha256(svg).hexdigest()} "
+                   f"bytes={len(svg)} -->\n").encode()
+        try:
+            path.parent.mkdir(parents=True, exist_ok=True)
+            fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=path.parent)
+            try:
+                with os.fdopen(fd, "wb") as fh:
+                    fh.write(svg)
+                    fh.write(trailer)
+                os.replace(tmp, path)
+            except BaseException:
+                try:
+                    os.unlink(tmp)
+                except OSError:
+                    pass
+                raise
+        except OSError:
+            return
+
+
+def _verified(data: bytes) -> bytes | None:
+    """The document part of an entry if its length, sha256 and shape check out."""
+    cut = data.rfind(b"<!-- thermofolio-cache ")
+    if cut < 0:
+        return None
+    match = _TRAILER.match(data, cut)
+    if match is None:
+        return None
+    svg = data[:cut]
+    if len(svg) != int(match.group(2)):
+        return None
+    if hashlib.sha256(svg).hexdigest().encode() != match.group(1):
+        return None
+    return svg if looks_like_svg(svg) else None

@@ -1,0 +1,182 @@
+"""Build caching: the chart cache, redrawing only what changed, and unchanged files kept.
+
+Chart drawing is replaced by a recording stand-in (one small SVG per spec) except where a
+test says otherwise; timings belong to benchmarks/bench_build.py, not here.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import importlib
+import os
+import re
+import subprocess
+import sys
+from dataclasses import replace
+from pathlib import Path
+
+import pytest
+
+from conftest import REPO, assemble
+from generator.charts import LineChartSpec, Series, spec_digest
+from generator.cli import main
+from generator.site.chart_cache import ChartCache, cache_key
+
+publish_mod = importlib.import_module("generator.site.publish")
+EPOCH = "1767225600"  # 2026-01-01T00:00:00Z, an arbitrary fixed build date
+SUMMARY = re.compile(r"(\d+) charts \((\d+) drawn, (\d+) cached.*?\), (\d+) files rewritten")
+
+
+class Recorder:
+    """Stands in for generator.charts.render_many and remembers every spec it drew."""
+
+    def __init__(self) -> None:
+        self.drawn: list = []
+
+    def __call__(self, specs, jobs=1):
+        specs = list(specs)
+        self.drawn.extend(specs)
+        return [(f'<?xml version="1.0"?>\n<svg xmlns="http://www.w3.org/2000/svg"><title>'
+                 f'{hashlib.sha256(s.to_canonical_json().encode()).hexdigest()[:8]}</title>'
+                 f'</svg>\n').encode() for s in specs]
+
+
+@pytest.fixture
+def recorder(monkeypatch) -> Recorder:
+    rec = Recorder()
+    monkeypatch.setattr(publish_mod, "render_many", rec)
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
+    return rec
+
+
+def build(src: Path, out: Path, cache: Path, capsys) -> tuple[int, int, int, int]:
+    """Build and return (charts, drawn, cached, files rewritten) from the summary line."""
+    capsys.readouterr()
+    assert main(["build", str(src), "-o", str(out), "--cache", str(cache), "-j", "1"]) == 0
+    match = SUMMARY.search(capsys.readouterr().err)
+    assert match, "no build summary printed"
+    return tuple(int(g) for g in match.groups())  # type: ignore[return-value]
+
+
+def mtimes(folder: Path) -> dict[str, int]:
+    return {str(p.relative_to(folder)): p.stat().st_mtime_ns
+            for p in folder.rglob("*") if p.is_file()}
+
+
+def test_second_build_draws_nothing_and_rewrites_nothing(tmp_path, recorder, capsys):
+    src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
+    charts, drawn, cached, rewritten = build(src, out, cache, capsys)
+    assert charts > 0 and drawn == charts and cached == 0 and rewritten > 0
+    before = mtimes(out)
+    recorder.drawn.clear()
+    assert build(src, out, cache, capsys) == (charts, 0, charts, 0)
+    assert recorder.drawn == []
+    assert mtimes(out) == before  # not one file touched
+
+
+def test_editing_one_species_redraws_only_its_charts(tmp_path, recorder, capsys):
+    src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
+    build(src, out, cache, capsys)
+    before = mtimes(out)
+    recorder.drawn.clear()
+    path = src / "species" / "water-liquid.yaml"
+    text = path.read_text(encoding="utf-8")
+    assert "-285.83" in text
+    path.write_text(text.replace("-285.83", "-285.50"), encoding="utf-8")
+    charts, drawn, _cached, rewritten = build(src, out, cache, capsys)
+    assert 0 < drawn < charts
+    # Every redrawn chart shows liquid water (its own sheet or the vaporisation reaction).
+    for spec in recorder.drawn:
+        text = spec.to_canonical_json()
+        assert "H₂O(l)" in text or "water" in text.lower(), spec.title
+    after = mtimes(out)
+    changed = {p for p in after if after[p] != before.get(p)}
+    assert "species/water-liquid.html" in changed
+    assert "species/hydrogen.html" not in changed and "species/oxygen.html" not in changed
+    assert "reactions/burning.html" not in changed  # burning makes vapour, not liquid
+    assert rewritten == len(changed)
+
+
+def _spec(**kw) -> LineChartSpec:
+    base = dict(title="H2O(g): Cp°(T)", description="Cp of water vapour rises with T.",
+                x_label="T / K", y_label="Cp° / (J mol⁻¹ K⁻¹)",
+                series=(Series("Cp°", (300.0, 600.0, 900.0), (33.6, 36.3, 40.0)),))
+    base.update(kw)
+    return LineChartSpec(**base)
+
+
+def test_cache_key_follows_data_and_style_only():
+    a, same = _spec(), _spec()
+    assert spec_digest(a) == spec_digest(same)
+    moved = _spec(series=(Series("Cp°", (300.0, 600.0, 900.0), (33.6, 36.3, 40.1)),))
+    relabelled = _spec(y_label="Cp° / (J/(mol·K))")
+    assert spec_digest(moved) != spec_digest(a)
+    assert spec_digest(relabelled) != spec_digest(a)
+    assert spec_digest(a, style_version="tf-style-x") != spec_digest(a)
+    assert cache_key(spec_digest(a)) == spec_digest(a)
+    assert cache_key(spec_digest(a), "tests.Recorder") != spec_digest(a)
+    assert spec_digest(replace(a)) == spec_digest(a)
+
+
+@pytest.mark.parametrize("damage", ["truncate", "flip", "drop-trailer"])
+def test_corrupt_cache_entry_is_redrawn_not_published(tmp_path, recorder, capsys, damage):
+    src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
+    charts, *_ = build(src, out, cache, capsys)
+    entry = sorted(cache.rglob("*.svg"))[0]
+    good = entry.read_bytes()
+    svg = good[: good.rfind(b"<!--")]
+    bad = {"truncate": good[: len(good) // 2],
+           "flip": good.replace(b"<title>", b"<titl3>", 1),
+           "drop-trailer": svg}[damage]
+    entry.write_bytes(bad)
+    recorder.drawn.clear()
+    assert build(src, out, cache, capsys)[:3] == (charts, 1, charts - 1)
+    published = {p.read_bytes() for p in (out / "charts").glob("*.svg")}
+    assert svg in published and (bad == svg or bad not in published)
+    assert entry.read_bytes() == good  # the redrawn chart replaced the bad entry
+
+
+def test_cache_get_put_round_trip(tmp_path):
+    cache = ChartCache(tmp_path)
+    key = "ab" * 32
+    doc = b'<?xml version="1.0"?>\n<svg xmlns="http://www.w3.org/2000/svg"></svg>\n'
+    assert cache.get(key) is None
+    cache.put(key, doc)
+    assert cache.entry(key) == tmp_path / "ab" / f"{key}.svg"
+    assert cache.get(key) == doc and cache.hits == 1
+    cache.put(key, b"<svg>not closed")
+    assert cache.get(key) is None and cache.rejected == 1  # the parse check refuses it
+    with pytest.raises(ValueError):
+        cache.entry("../escape")
+
+
+def test_no_cache_draws_everything(tmp_path, recorder, capsys):
+    src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
+    charts, *_ = build(src, out, cache, capsys)
+    capsys.readouterr()
+    assert main(["build", str(src), "-o", str(out), "--no-cache", "-q"]) == 0
+    assert len(recorder.drawn) == 2 * charts
+
+
+def test_fully_cached_build_does_not_import_matplotlib(tmp_path, monkeypatch):
+    """Fill the cache under the real drawer's keys, then build in a fresh interpreter."""
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
+    src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
+    from generator.compute import compute_handbook
+    from generator.load import load_handbook
+
+    handbook, _ = load_handbook(src)
+    _views, specs, digests = publish_mod._plan(publish_mod.chart_entries(
+        compute_handbook(handbook)))
+    store = ChartCache(cache)
+    svgs = Recorder()(list(specs.values()))
+    for path, svg in zip(specs, svgs, strict=True):
+        store.put(cache_key(digests[path]), svg)
+    code = ("import sys; from generator.cli import main; "
+            f"rc = main(['build', {str(src)!r}, '-o', {str(out)!r}, '--cache', {str(cache)!r}]);"
+            " print('matplotlib' in sys.modules, rc)")
+    env = {**os.environ, "PYTHONPATH": str(REPO)}
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          env=env, cwd=tmp_path, timeout=120, check=False)
+    assert done.stdout.split() == ["False", "0"], done.stderr
+    assert f"{len(specs)} cached" in done.stderr
