@@ -1,8 +1,13 @@
 """Writing the site: everything into a fresh temporary folder beside the output, then a swap.
 
-``os.replace`` onto a non-empty folder fails, so the swap is: rename the old site aside,
-rename the new one into place, delete the old.  A folder is only ever replaced if it is
-empty or carries the marker file a previous build wrote.
+``os.replace`` onto a non-empty folder fails, so the swap exchanges the two folders in one
+atomic step (Linux ``renameat2(RENAME_EXCHANGE)``): at every instant the output is either
+the complete previous site or the complete new one.  Where the exchange is not available
+the swap falls back to two renames (old aside, new in), and the next build puts an
+orphaned previous site back if a kill fell between them.  A folder is only ever replaced if
+it is empty or carries the marker file a previous build wrote; the temporary folders a
+killed build leaves beside the output are removed by the next build, and only those that
+carry the marker (or are empty), so nothing else is ever deleted.
 
 A file whose bytes equal the previous site's file is not rewritten: the old file is
 hard-linked (or, across file systems, copied with its times) into the new tree, so its
@@ -12,6 +17,10 @@ previous site is left exactly as it is and no swap happens.
 
 from __future__ import annotations
 
+import ctypes
+import ctypes.util
+import errno
+import functools
 import os
 import shutil
 import stat
@@ -79,10 +88,67 @@ def _same_bytes(path: Path, data: bytes, size: int | None) -> bool:
         return False
 
 
+_AT_FDCWD = -100
+_RENAME_EXCHANGE = 2
+
+
+@functools.lru_cache(maxsize=1)
+def _renameat2():
+    try:
+        libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6", use_errno=True)
+        fn = libc.renameat2
+    except (OSError, AttributeError):
+        return None
+    fn.argtypes = [ctypes.c_int, ctypes.c_char_p, ctypes.c_int, ctypes.c_char_p, ctypes.c_uint]
+    fn.restype = ctypes.c_int
+    return fn
+
+
+def _exchange(a: Path, b: Path) -> bool:
+    """Swap two folders atomically; False when the platform or file system cannot."""
+    fn = _renameat2()
+    if fn is None:
+        return False
+    if fn(_AT_FDCWD, os.fsencode(a), _AT_FDCWD, os.fsencode(b), _RENAME_EXCHANGE) == 0:
+        return True
+    err = ctypes.get_errno()
+    if err in (errno.ENOSYS, errno.EINVAL, errno.ENOTSUP, errno.EOPNOTSUPP, errno.EXDEV):
+        return False
+    raise OSError(err, os.strerror(err), str(b))
+
+
+def _ours(folder: Path, name: str) -> bool:
+    """A leftover temporary folder of a build of ``name``: empty, or marked."""
+    try:
+        entries = list(folder.iterdir())
+    except OSError:
+        return False
+    return (not entries or (folder / MARKER).is_file()
+            or (folder / name / MARKER).is_file() and len(entries) == 1)
+
+
+def clean_leftovers(out: Path) -> None:
+    """Put back a previous site a killed fallback swap left aside, then remove the
+    temporary folders killed builds left beside ``out`` (only marked or empty ones)."""
+    parent, name = out.parent, out.name
+    if not parent.is_dir():
+        return
+    olds = sorted(parent.glob(f".{name}.old-*"))
+    if not out.exists():
+        for old in olds:
+            if (old / name / MARKER).is_file():
+                os.rename(old / name, out)
+                break
+    for leftover in sorted(parent.glob(f".{name}.new-*")) + olds:
+        if leftover.is_dir() and not leftover.is_symlink() and _ours(leftover, name):
+            shutil.rmtree(leftover, ignore_errors=True)
+
+
 def write_site(out: Path, files: Mapping[str, bytes]) -> WriteResult:
     """Write ``files`` (site path -> bytes, plus the marker) as the folder ``out``, atomically
     as far as the file system allows; on any failure the previous site stays as it was."""
     out = Path(os.path.abspath(out))
+    clean_leftovers(out)
     everything = {**files, MARKER: MARKER_TEXT}
     for rel in everything:
         _checked(rel)
@@ -94,10 +160,17 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> WriteResult:
         return WriteResult(rewritten=0, kept=len(same), removed=0, swapped=False)
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.new-", dir=out.parent))
+    # The marker goes first, so a killed build's folder is known to be ours.
+    if MARKER in same:
+        _keep(out / MARKER, tmp / MARKER)
+    else:
+        (tmp / MARKER).write_bytes(MARKER_TEXT)
     aside: Path | None = None
     try:
-        made: set[Path] = set()
+        made: set[Path] = {tmp}
         for rel in sorted(everything):
+            if rel == MARKER:
+                continue
             parts = _checked(rel).parts
             target = tmp.joinpath(*parts)
             if target.parent not in made:
@@ -108,6 +181,10 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> WriteResult:
             else:
                 target.write_bytes(everything[rel])
         os.chmod(tmp, 0o755)
+        if out.exists() and _exchange(tmp, out):
+            shutil.rmtree(tmp, ignore_errors=True)  # tmp now holds the previous site
+            return WriteResult(rewritten=len(everything) - len(same), kept=len(same),
+                               removed=removed, swapped=True)
         if out.exists():
             aside = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
             os.rename(out, aside / out.name)
