@@ -14,7 +14,7 @@ import json
 import math
 from collections.abc import Iterable
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache, lru_cache
 from importlib import metadata
 from typing import Any, ClassVar
 
@@ -35,7 +35,16 @@ def _num(value: Any, what: str) -> float:
 
 
 def _nums(values: Iterable[Any], what: str) -> tuple[float, ...]:
-    return tuple(_num(v, f"{what}[{i}]") for i, v in enumerate(values))
+    """``_num`` of each value; the per-value checks (and their messages) only on a failure."""
+    values = list(values)
+    try:
+        floats = [float(v) for v in values]
+    except (TypeError, ValueError):
+        floats = None
+    if floats is None or not all(map(math.isfinite, floats)):
+        return tuple(_num(v, f"{what}[{i}]") for i, v in enumerate(values))
+    fmt = f"{{:.{SIG_DIGITS - 1}e}}".format
+    return tuple(float(fmt(x)) + 0.0 for x in floats)
 
 
 def _set(obj: object, name: str, value: Any) -> None:
@@ -50,6 +59,31 @@ def _same_length(what: str, **columns: tuple[float, ...]) -> None:
         raise ValueError(f"{what}: at least 2 points needed, got {lengths}")
 
 
+_PLAIN = (float, int, str, bool, type(None))
+
+
+@cache
+def _field_names(cls: type) -> tuple[str, ...]:
+    return tuple(f.name for f in dataclasses.fields(cls))
+
+
+def _plain(obj: Any) -> Any:
+    """What ``dataclasses.asdict`` gives for a spec (the same JSON), without its deep copies:
+    dataclasses become dicts, sequences of plain values are passed through as they are."""
+    t = type(obj)
+    if t in _PLAIN:
+        return obj
+    if t is tuple or t is list:
+        if all(type(v) in _PLAIN for v in obj):
+            return obj
+        return [_plain(v) for v in obj]
+    if t is dict:
+        return {k: _plain(v) for k, v in obj.items()}
+    if dataclasses.is_dataclass(obj):
+        return {name: _plain(getattr(obj, name)) for name in _field_names(t)}
+    return obj
+
+
 class _Spec:
     """Canonical JSON for every spec kind."""
 
@@ -57,7 +91,7 @@ class _Spec:
 
     def to_canonical_json(self) -> str:
         """Sorted-key, compact JSON of ``kind`` and every field (floats already rounded)."""
-        data = {"kind": self.kind, **dataclasses.asdict(self)}  # type: ignore[call-overload]
+        data = {"kind": self.kind, **_plain(self)}
         return json.dumps(
             data, sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False
         )

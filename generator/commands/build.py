@@ -3,7 +3,13 @@
 from __future__ import annotations
 
 import argparse
+import hashlib
+import json
+import os
+import stat
+import subprocess
 import sys
+import tempfile
 import time
 from pathlib import Path
 
@@ -53,6 +59,15 @@ def build_site(sources: Path, output: Path, quiet: bool = False,
     start = time.perf_counter()
     if args is None:
         args = argparse.Namespace(sources=str(sources), output=str(output), quiet=quiet)
+    stamp = build_stamp(sources, args)
+    if stamp is not None:
+        from generator.site import output as site_output
+
+        site_output.clean_leftovers(Path(os.path.abspath(output)))
+        record = up_to_date(sources, output, args, stamp)
+        if record is not None:
+            _report_up_to_date(record, output, quiet, start)
+            return 0
     from generator.load import load_handbook
 
     handbook, findings = load_handbook(sources)
@@ -79,7 +94,210 @@ def build_site(sources: Path, output: Path, quiet: bool = False,
             return 2
     from generator.site import publish
 
-    return publish(handbook, findings, output, args, start, computed=computed)
+    code = publish(handbook, findings, output, args, start, computed=computed)
+    record = getattr(args, "build_record", None)
+    if code == 0 and stamp is not None and record is not None:
+        record["findings"] = [[f.severity.name, f.format()] for f in findings]
+        save_record(sources, output, args, stamp, record)
+    return code
+
+
+# --- the whole-build stamp -----------------------------------------------------------------
+# A sha256 (FIPS 180-4) over everything that can change the site's bytes: every source file
+# (path and bytes), the build date's inputs, the source revision, the package's own code and
+# templates, the library versions it renders with, and the options that change output.  It
+# is kept in the chart cache folder (never in the site, whose bytes it must not change) with
+# the size, modification time and inode of every file the build left in the output folder.
+# A build whose stamp matches and whose output folder still holds exactly those files does
+# nothing and reports the site up to date.
+
+STAMP_FOLDER = "stamps"
+_LIBRARIES = ("numpy", "matplotlib", "jinja2", "markupsafe", "markdown", "nh3", "pint",
+              "pyyaml", "molmass")
+_PATCHABLE_OK = frozenset({"render_many"})  # a stand-in drawer salts the stamp instead
+
+
+def _hidden(rel_parts: tuple[str, ...]) -> bool:
+    return any(part.startswith(".") for part in rel_parts)
+
+
+def _tree_digest(h, base: Path, skip_hidden: bool) -> float:
+    """Feed every file under ``base`` (relative path and bytes, sorted) into ``h``; returns
+    the newest modification time seen."""
+    newest = 0.0
+    base_s = os.path.abspath(base)
+    for dirpath, dirs, names in os.walk(base_s):
+        rel_dir = os.path.relpath(dirpath, base_s)
+        parts = () if rel_dir == "." else tuple(rel_dir.split(os.sep))
+        dirs[:] = sorted(d for d in dirs if not (skip_hidden and d.startswith("."))
+                         and d != "__pycache__")
+        for name in sorted(names):
+            if (skip_hidden and name.startswith(".")) or name.endswith((".pyc", ".pyo")):
+                continue
+            full = os.path.join(dirpath, name)
+            if not os.path.isfile(full):
+                continue
+            with open(full, "rb") as fh:
+                data = fh.read()
+            rel = "/".join((*parts, name))
+            h.update(f"{rel}\0{len(data)}\0".encode())
+            h.update(data)
+            newest = max(newest, os.stat(full).st_mtime)
+    return newest
+
+
+def _git_heads(root: Path) -> str:
+    """Full and short HEAD of the sources' repository, and the folder's place in it."""
+    try:
+        done = subprocess.run(["git", "-C", str(root), "rev-parse", "HEAD", "--short", "HEAD",
+                               "--show-prefix"], capture_output=True, text=True, timeout=10,
+                              check=False)
+    except (OSError, subprocess.SubprocessError):
+        return "no git"
+    return f"{done.returncode}\n{done.stdout}"
+
+
+def _versions() -> str:
+    from importlib import metadata
+
+    out = [sys.version]
+    for name in _LIBRARIES:
+        try:
+            out.append(f"{name}={metadata.version(name)}")
+        except metadata.PackageNotFoundError:
+            out.append(f"{name}=none")
+    return "\n".join(out)
+
+
+def _publish_renderer() -> str | None:
+    """"" for the package's own publisher, a stand-in drawer's name, or None when any other
+    step of the publisher was replaced in this process (then no stamp is trusted)."""
+    mod = sys.modules.get("generator.site.publish")
+    if mod is None:
+        return ""
+    originals = getattr(mod, "_ORIGINALS", None)
+    if originals is None:
+        return None
+    if any(getattr(mod, k, None) is not v for k, v in originals.items()
+           if k not in _PATCHABLE_OK):
+        return None
+    return mod._renderer_name()
+
+
+def build_stamp(sources: Path, args: argparse.Namespace) -> str | None:
+    """The stamp of building ``sources`` with ``args``, or None when no stamp applies
+    (``--no-cache``, ``--since``, or a replaced publishing step)."""
+    if getattr(args, "no_cache", False) or getattr(args, "since", None):
+        return None
+    renderer = _publish_renderer()
+    if renderer is None:
+        return None
+    import generator
+
+    h = hashlib.sha256(b"thermofolio build stamp 1\0")
+    package = Path(generator.__file__).resolve().parent
+    h.update(f"{generator.__version__}\0{_versions()}\0{renderer}\0".encode())
+    _tree_digest(h, package, skip_hidden=False)
+    outside = package.parent / "site_templates"
+    if outside.is_dir():
+        h.update(b"\0templates\0")
+        _tree_digest(h, outside, skip_hidden=False)
+    root = Path(os.path.abspath(sources))
+    given = str(sources) if os.path.isabs(sources) else f"{sources}\0{os.getcwd()}"
+    h.update(f"\0sources\0{root}\0{given}\0".encode())  # pages show the path as given
+    newest = _tree_digest(h, root, skip_hidden=True)
+    epoch = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
+    h.update(f"\0date\0{epoch}\0{'' if epoch.isdigit() else repr(newest)}\0".encode())
+    h.update(f"\0git\0{_git_heads(root)}\0".encode())
+    return h.hexdigest()
+
+
+def _cache_folder(sources: Path, args: argparse.Namespace) -> Path:
+    from generator.site.chart_cache import default_folder
+
+    folder = getattr(args, "cache", None)
+    return Path(folder) if folder else default_folder(sources)
+
+
+def _record_path(sources: Path, output: Path, args: argparse.Namespace) -> Path:
+    key = hashlib.sha256(os.path.abspath(output).encode()).hexdigest()[:32]
+    return _cache_folder(sources, args) / STAMP_FOLDER / f"{key}.json"
+
+
+def output_state(output: Path) -> dict[str, list[int]]:
+    """Every regular file under ``output``: site path -> [size, mtime_ns, inode]."""
+    found: dict[str, list[int]] = {}
+    base = os.path.abspath(output)
+    for dirpath, _dirs, names in os.walk(base):
+        rel_dir = os.path.relpath(dirpath, base)
+        for name in names:
+            st = os.lstat(os.path.join(dirpath, name))
+            rel = name if rel_dir == "." else f"{rel_dir}/{name}".replace(os.sep, "/")
+            if stat.S_ISREG(st.st_mode):
+                found[rel] = [st.st_size, st.st_mtime_ns, st.st_ino]
+            else:
+                found[rel] = [-1, -1, -1]
+    return found
+
+
+def up_to_date(sources: Path, output: Path, args: argparse.Namespace,
+               stamp: str) -> dict | None:
+    """The stored record when the last build into ``output`` had ``stamp`` and left the
+    folder exactly as it is now; else None."""
+    path = _record_path(sources, output, args)
+    try:
+        record = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    if not isinstance(record, dict) or record.get("stamp") != stamp:
+        return None
+    if not os.path.isdir(output) or output_state(output) != record.get("files"):
+        return None
+    if _entries_state(record.get("cache_entries", [])) != record.get("cache_state"):
+        return None  # a chart cache entry changed or went: let the build check and redraw it
+    return record
+
+
+def _entries_state(paths: list[str]) -> list[list[int]]:
+    out = []
+    for path in paths:
+        try:
+            st = os.stat(path)
+        except OSError:
+            out.append([-1, -1])
+            continue
+        out.append([st.st_size, st.st_mtime_ns])
+    return out
+
+
+def save_record(sources: Path, output: Path, args: argparse.Namespace, stamp: str,
+                record: dict) -> None:
+    """Store the stamp with the output folder's state; a failure only costs a rebuild."""
+    path = _record_path(sources, output, args)
+    doc = {**record, "stamp": stamp, "files": output_state(output),
+           "cache_state": _entries_state(record.get("cache_entries", []))}
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(prefix=".stamp-", dir=path.parent)
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            json.dump(doc, fh, sort_keys=True, separators=(",", ":"))
+        os.replace(tmp, path)
+    except OSError:
+        return
+
+
+def _report_up_to_date(record: dict, output: Path, quiet: bool, start: float) -> None:
+    for severity, text in record.get("findings", []):
+        if not quiet or severity == Severity.ERROR.name:
+            print(text, file=sys.stderr)
+    if quiet:
+        return
+    elapsed = time.perf_counter() - start
+    n = len(record["files"])
+    print(f"thermofolio build: up to date: {record['pages']} pages, {record['charts']} charts "
+          f"(0 drawn, {record['charts']} cached), 0 files rewritten, {n} unchanged, "
+          f"{record['warnings']} warnings, {elapsed:.1f} s -> {output}", file=sys.stderr)
+    print(f"CAUTION: {record['caution']}", file=sys.stderr)
 
 
 def print_caution() -> None:

@@ -13,6 +13,7 @@ from __future__ import annotations
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from fractions import Fraction
+from functools import lru_cache
 
 import numpy as np
 
@@ -70,12 +71,17 @@ def fmt_T(T: float) -> str:
     return f"{text} K"
 
 
+@lru_cache(maxsize=65536)
+def _formula_unicode(text: str) -> str:
+    try:
+        return parse_formula(text).unicode()
+    except FormulaError:
+        return text
+
+
 def species_label(sp: Species) -> str:
     """Unicode formula with phase (and polymorph), e.g. "CH₄(g)", "CaCO₃(cr, calcite)"."""
-    try:
-        formula = parse_formula(sp.formula).unicode()
-    except FormulaError:
-        formula = sp.formula
+    formula = _formula_unicode(sp.formula)
     phase = f"{sp.phase}, {sp.form}" if sp.form else sp.phase
     return f"{formula}({phase})"
 

@@ -13,6 +13,7 @@ import math
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from fractions import Fraction
+from functools import lru_cache
 from html import escape
 
 import numpy as np
@@ -120,13 +121,16 @@ def symbol(name: str) -> Markup:
 # --- chemistry as HTML -------------------------------------------------------------------------
 
 
+@lru_cache(maxsize=65536)
 def formula_html(formula: str) -> Markup:
+    """The formula with sub- and superscripts (parsed once per distinct text)."""
     try:
         return Markup(parse_formula(formula).html())
     except FormulaError:
         return Markup(escape(formula))
 
 
+@lru_cache(maxsize=65536)
 def formula_text(formula: str) -> str:
     try:
         return parse_formula(formula).unicode()

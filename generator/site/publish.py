@@ -239,6 +239,14 @@ def reaction_doc(computed: Computed, rid: str, findings: Sequence[Finding]) -> d
 
 
 def handbook_doc(computed: Computed, findings: Sequence[Finding]) -> dict:
+    return {**_handbook_rest(computed),
+            "species": [species_doc(computed, sid, findings) for sid in sorted(computed.species)],
+            "reactions": [reaction_doc(computed, rid, findings)
+                          for rid in sorted(computed.reactions)]}
+
+
+def _handbook_rest(computed: Computed) -> dict:
+    """handbook_doc without its species and reactions."""
     s = computed.handbook.settings
     refs = computed.handbook.references
     return {
@@ -250,24 +258,52 @@ def handbook_doc(computed: Computed, findings: Sequence[Finding]) -> dict:
         "references": [{"key": k, "citation": refs[k].citation, "kind": refs[k].kind,
                         "standard_pressure_Pa": num(refs[k].standard_pressure),
                         "doi": refs[k].doi, "url": refs[k].url} for k in sorted(refs)],
-        "species": [species_doc(computed, sid, findings) for sid in sorted(computed.species)],
-        "reactions": [reaction_doc(computed, rid, findings)
-                      for rid in sorted(computed.reactions)],
         "caution": CAUTION,
     }
 
 
+_SLOT = "\0thermofolio-slot-{}\0"
+
+
+def _json_text(doc) -> str:
+    return json.dumps(doc, sort_keys=True, indent=1, ensure_ascii=False, allow_nan=False)
+
+
+def _nested_list(texts: Sequence[str]) -> str:
+    """A list of documents already encoded by ``_json_text``, as ``_json_text`` writes it as a
+    value of a top-level key (one level deeper; JSON text holds no raw newlines)."""
+    if not texts:
+        return "[]"
+    return "[\n  " + ",\n  ".join(t.replace("\n", "\n  ") for t in texts) + "\n ]"
+
+
+def _handbook_bytes(computed: Computed, species_texts: Sequence[str],
+                    reaction_texts: Sequence[str]) -> bytes:
+    """``_json_bytes(handbook_doc(...))`` from the documents already encoded, byte for byte."""
+    doc = {**_handbook_rest(computed), "species": _SLOT.format("species"),
+           "reactions": _SLOT.format("reactions")}
+    text = _json_text(doc)
+    for name, texts in (("species", species_texts), ("reactions", reaction_texts)):
+        slot = json.dumps(_SLOT.format(name))
+        assert text.count(slot) == 1
+        text = text.replace(slot, _nested_list(texts))
+    return (text + "\n").encode("utf-8")
+
+
 def export_files(computed: Computed, findings: Sequence[Finding]) -> dict[str, bytes]:
     files: dict[str, bytes] = {}
+    species_texts, reaction_texts = [], []
     for sid in sorted(computed.species):
         doc = species_doc(computed, sid, findings)
-        files[f"species/{sid}.json"] = _json_bytes(doc)
+        species_texts.append(_json_text(doc))
+        files[f"species/{sid}.json"] = (species_texts[-1] + "\n").encode("utf-8")
         files[f"species/{sid}.csv"] = csv_table(doc["rows"], SPECIES_CSV).encode("utf-8")
     for rid in sorted(computed.reactions):
         doc = reaction_doc(computed, rid, findings)
-        files[f"reactions/{rid}.json"] = _json_bytes(doc)
+        reaction_texts.append(_json_text(doc))
+        files[f"reactions/{rid}.json"] = (reaction_texts[-1] + "\n").encode("utf-8")
         files[f"reactions/{rid}.csv"] = csv_table(doc["rows"], REACTION_CSV).encode("utf-8")
-    files["data/handbook.json"] = _json_bytes(handbook_doc(computed, findings))
+    files["data/handbook.json"] = _handbook_bytes(computed, species_texts, reaction_texts)
     index = json.dumps(pages.search_entries(computed), sort_keys=True, ensure_ascii=False,
                        separators=(",", ":"))
     files["search-index.js"] = f"window.{SEARCH_GLOBAL} = {index};\n".encode()
@@ -333,8 +369,8 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
     files.update(export_files(computed, every))
     files.update(assets.static_assets())
     jobs = int(getattr(args, "jobs", 0) or default_jobs())
-    charts, stats = draw_charts(specs, digests, chart_cache_for(args, root), jobs,
-                                quiet=quiet, start=start_time)
+    cache = chart_cache_for(args, root)
+    charts, stats = draw_charts(specs, digests, cache, jobs, quiet=quiet, start=start_time)
     files.update(charts)
     files[manifest.MANIFEST] = manifest.manifest_bytes(files, site_pages, computed, meta)
     try:
@@ -352,4 +388,18 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
               f"{result.rewritten} files rewritten, {result.kept} unchanged, "
               f"{n_warn} warnings, {elapsed:.1f} s -> {out}", file=sys.stderr)
         print(f"CAUTION: {handbook.settings.caution or CAUTION}", file=sys.stderr)
+    if hasattr(args, "__dict__"):  # what a later up-to-date build reports (commands.build)
+        args.build_record = {"pages": len(site_pages), "charts": stats.total,
+                             "warnings": sum(f.severity is Severity.WARNING for f in every),
+                             "caution": handbook.settings.caution or CAUTION,
+                             "cache_entries": [] if cache is None else sorted(
+                                 str(cache.entry(cache_key(d, _renderer_name())))
+                                 for d in digests.values())}
     return 0
+
+
+# This module's own steps; generator.commands.build trusts no build stamp once any of them
+# has been replaced in the running process (a test's stand-in), except the chart drawer,
+# whose name salts the stamp as it salts the cache keys.
+_ORIGINALS = {k: v for k, v in dict(globals()).items()
+              if callable(v) and getattr(v, "__module__", None) == __name__}

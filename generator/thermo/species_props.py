@@ -37,6 +37,7 @@ taken as those of the 298.15 K values; the Cp integral's own uncertainty is not 
 
 from __future__ import annotations
 
+from collections import OrderedDict
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from functools import lru_cache
@@ -211,10 +212,38 @@ def _piecewise(plan: _Plan, T: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.n
     return Cp, dH, dS
 
 
+_MEMO: OrderedDict[tuple, tuple[Species, SpeciesFunctions]] = OrderedDict()
+_MEMO_SIZE = 4096  # entries, each for a T array of at most _MEMO_POINTS values
+_MEMO_POINTS = 512  # chart curves have CHART_POINTS (120) values; a memo past that costs
+
+
+def clear_memo() -> None:
+    """Forget the results ``species_functions`` remembers (benchmarks time cold calls)."""
+    _MEMO.clear()
+
+
 def species_functions(species: Species, T: np.ndarray | Sequence[float] | float
                       ) -> SpeciesFunctions:
-    """Cp, H - H298, H, S, G and gef of ``species`` at ``T`` (see the module docstring)."""
+    """Cp, H - H298, H, S, G and gef of ``species`` at ``T`` (see the module docstring).
+
+    The result (read-only arrays) is remembered per species object and temperature array, so
+    the reactions sharing a species evaluate it once per temperature grid."""
     T_in = np.asarray(T, dtype=float)
+    if T_in.size > _MEMO_POINTS:
+        return _species_functions(species, T_in)
+    key = (id(species), T_in.shape, T_in.tobytes())
+    hit = _MEMO.get(key)
+    if hit is not None and hit[0] is species:
+        _MEMO.move_to_end(key)
+        return hit[1]
+    result = _species_functions(species, T_in)
+    _MEMO[key] = (species, result)  # holding the species keeps its id from being reused
+    if len(_MEMO) > _MEMO_SIZE:
+        _MEMO.popitem(last=False)
+    return result
+
+
+def _species_functions(species: Species, T_in: np.ndarray) -> SpeciesFunctions:
     Tf = T_in.ravel()
     if np.any(Tf <= 0.0):
         raise ValueError("temperatures must be positive (K)")
