@@ -36,6 +36,7 @@ from generator.thermo.species_props import (
 from generator.thermo.standard_state import to_standard_pressure
 
 if TYPE_CHECKING:
+    from generator.design import Design
     from generator.network import NetworkResult
     from generator.provenance import Completeness, Provenance
 
@@ -88,6 +89,8 @@ class Computed:
     # the network's reconciled formation enthalpies (generator.network).
     provenance: Provenance | None = None
     network: NetworkResult | None = None
+    # Conversion, adiabatic, cell, family and ladder numbers (generator.design).
+    design: Design | None = None
 
     @property
     def completeness(self) -> Completeness | None:
@@ -190,8 +193,13 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None) -> Comput
     prov = provenance(hb, today or today_from_environment())
     network = solve_network(hb, element_refs)
     findings += list(prov.findings) + network_findings(network)
-    return Computed(hb, element_refs, species, reactions, tuple(ref_findings + findings),
-                    provenance=prov, network=network)
+    from dataclasses import replace
+
+    from generator.design import compute_design
+
+    computed = Computed(hb, element_refs, species, reactions, tuple(ref_findings + findings),
+                        provenance=prov, network=network)
+    return replace(computed, design=compute_design(computed))
 
 
 def _with_checks(r: ReactionResult, checks) -> ReactionResult:

@@ -195,7 +195,7 @@ def solve_network(handbook: Handbook, element_refs: Mapping[str, Species]) -> Ne
 def _weighted_solve(rows: list[tuple[np.ndarray, np.ndarray]], y: np.ndarray,
                     u: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray, bool]:
     """x̂ and (AᵀWA)⁻¹ for W = diag(1/u²), A given by its sparse rows.  The normal matrix
-    is assembled row by row (each row touches only its own species); Cholesky and inverse;
+    is assembled row by row (each row touches only its own species) and inverted once;
     on a singular matrix, ``lstsq`` on the dense weighted design matrix and a pseudo-inverse.
     """
     if n == 0:
@@ -207,9 +207,16 @@ def _weighted_solve(rows: list[tuple[np.ndarray, np.ndarray]], y: np.ndarray,
         N[np.ix_(c, c)] += wi * np.outer(a, a)
         b[c] += wi * yi * a
     try:
-        np.linalg.cholesky(N)
+        # One factorisation: the inverse gives both x̂ = (AᵀWA)⁻¹AᵀWy and the covariance;
+        # a singular or near-singular network shows as a non-positive variance or as a
+        # normal equation the solution does not satisfy (both O(n²) checks).
         cov = np.linalg.inv(N)
-        return cov @ b, cov, False
+        x = cov @ b
+        scale = max(float(np.abs(b).max()), 1.0)
+        if (not np.all(np.isfinite(cov)) or np.any(np.diag(cov) <= 0.0)
+                or float(np.abs(N @ x - b).max()) > 1e-6 * scale):
+            raise np.linalg.LinAlgError("network normal matrix is singular")
+        return x, cov, False
     except np.linalg.LinAlgError:
         A = np.zeros((len(rows), n))
         for i, (c, a) in enumerate(rows):

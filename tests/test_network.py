@@ -139,3 +139,17 @@ def test_a_thousand_species_solve_in_well_under_a_second():
     assert len(net.reconciled) == 1000 and len(net.observations) == 1999
     assert not net.rank_deficient
     assert elapsed < 1.0, f"{elapsed:.2f} s"
+
+
+def test_an_underdetermined_network_is_reported_not_solved_wrongly():
+    """Two species with no cited ΔfH°, tied by one measured ΔrH°: the network cannot fix
+    either (one observation, two unknowns), so it says so (invented numbers)."""
+    ref = Species("el", "El", "cr", "element", (("El", 1),), 0, 1.0,
+                  {"dfH": Quantity("dfH", (Value(0.0, "kJ/mol"),))})
+    a = Species("a", "El", "g", "a", (("El", 1),), 0, 1.0, {})
+    b = Species("b", "El", "l", "b", (("El", 1),), 0, 1.0, {})
+    m = Measured("drH", Value(-10.0, "kJ/mol", unc=0.5))
+    rx = Reaction("r", "r", "", (Term(1, "a", "a"),), (Term(1, "b", "b"),), measured=(m,))
+    hb = Handbook("mem", Settings("t", "1", "o"), {}, {"el": ref, "a": a, "b": b}, {"r": rx})
+    net = solve_network(hb, {"El": ref})
+    assert net.rank_deficient

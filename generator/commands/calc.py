@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import difflib
 import json
 import math
 import re
@@ -32,7 +33,10 @@ def register(sub) -> None:
     p = sub.add_parser("calc", help="reaction properties at any temperature",
                        description="Compute ΔrH°, ΔrS°, ΔrG°, K, ΔrU° (and E° for electrons: n) "
                        "for an equation or a reaction id, from the handbook's species data.")
-    p.add_argument("equation", help='e.g. "CH4(g) + H2O(g) -> CO(g) + 3 H2(g)", or a reaction id')
+    p.add_argument("equation", nargs="?", help='e.g. "CH4(g) + H2O(g) -> CO(g) + 3 H2(g)", or '
+                   "a reaction id (not with --family)")
+    p.add_argument("--family", metavar="NAME", help="every member of a reaction family: ΔrG° "
+                   "per mole of the family's per species, and where two members' lines cross")
     p.add_argument("-T", dest="temperatures", action="append", default=[], metavar="K",
                    help="a temperature in K (repeatable)")
     p.add_argument("--range", metavar="START:STOP:STEP", help="temperatures START to STOP "
@@ -88,9 +92,15 @@ def temperatures(args: argparse.Namespace) -> list[float] | str:
 
 
 def run(args: argparse.Namespace) -> int:
+    if (args.equation is None) == (args.family is None):
+        return _usage("give an equation (or reaction id) or --family NAME, not both"
+                      if args.family is not None else "give an equation, a reaction id or "
+                      "--family NAME")
     temps = temperatures(args)
     if isinstance(temps, str):
         return _usage(temps)
+    if args.family is not None:
+        return run_family(args, temps)
     if args.electrons is not None and args.electrons < 1:
         return _usage("--electrons must be at least 1")
     pressures = _pressures(args.pressures)
@@ -413,3 +423,134 @@ def _voltage_rows(f, V: float) -> list[dict]:
         rows.append({"T": num(T), "V": num(V), "mode": eff.mode, "eta_V": num(eff.eta_V),
                      "eta_thermal": num(eff.eta_thermal)})
     return rows
+
+
+# --- --family: ΔrG° per mole of the family's per species, crossovers of the lines -----------
+
+FAMILY_FINE_POINTS = 400  # points of the grid on which the members' lines are intersected
+_NOT_WITH_FAMILY = (("feed", "--feed"), ("pressures", "--pressure"), ("adiabatic", "--adiabatic"),
+                    ("T_in", "--T-in"), ("voltage", "--voltage"), ("electrons", "--electrons"))
+
+
+def run_family(args: argparse.Namespace, temps: list[float]) -> int:
+    """ΔrG°(T)/|ν_per| of every member of ``--family`` at ``temps`` and the temperatures in
+    [min T, max T] where two members' lines cross (generator.design.line_crossings on a
+    grid of FAMILY_FINE_POINTS)."""
+    from generator.compute import compute_handbook
+    from generator.design import (
+        family_members,
+        handbook_family,
+        handbook_family_names,
+        line_crossings,
+        per_label,
+    )
+    from generator.thermo.reactions import reaction_functions
+
+    for attr, flag in _NOT_WITH_FAMILY:
+        if getattr(args, attr) not in (None, False, []):
+            return _usage(f"{flag} does not go with --family")
+    handbook, load_findings = load_handbook(Path(args.sources))
+    if handbook is None:
+        for f in sort_findings(load_findings):
+            print(f.format(), file=sys.stderr)
+        print("thermofolio calc: the handbook has errors; run thermofolio check", file=sys.stderr)
+        return 1
+    computed = compute_handbook(handbook)
+    hb = computed.handbook
+    name = args.family.strip()
+    names = handbook_family_names(hb)
+    if name not in names:
+        close = difflib.get_close_matches(name, names, n=1)
+        hint = (f"did you mean '{close[0]}'?" if close
+                else "families: " + (", ".join(names) or "none"))
+        print(f"thermofolio calc: error: unknown family '{name}' ({hint})", file=sys.stderr)
+        return 1
+    fam = handbook_family(hb, name)
+    pairs, skipped = family_members(hb, name, fam.per)
+    grid = np.asarray(temps, dtype=float)
+    fine = (np.linspace(grid[0], grid[-1], FAMILY_FINE_POINTS) if grid[-1] > grid[0]
+            else None)
+    rows: dict[str, np.ndarray] = {}
+    lines: dict[str, np.ndarray] = {}
+    findings: list[Finding] = []
+    used = {rid for rid, _nu in pairs}
+    for rid, nu in pairs:
+        stoich = hb.reactions[rid].stoichiometry
+        used |= set(stoich)
+        f = reaction_functions(stoich, hb.species, grid)
+        rows[rid] = np.asarray(f.drG, dtype=float) / nu
+        if fine is not None:
+            lines[rid] = np.asarray(reaction_functions(stoich, hb.species, fine).drG,
+                                    dtype=float) / nu
+        if f.extrapolated.any():
+            findings.append(note("extrapolated", f"{rid}: extrapolated at " + ", ".join(
+                f"{t:g}" for t in grid[f.extrapolated]) + " K", item=rid))
+        if not np.all(np.isfinite(f.drG)):
+            findings.append(Finding(Severity.ERROR, "not-computable", f"{rid}: a species lacks "
+                                    "ΔfH° or S°; values shown as —", item=rid))
+    members = [rid for rid, _nu in pairs]
+    crossings = line_crossings(fine, lines, members) if fine is not None else ()
+    findings += [x for x in computed.findings if x.item in used]
+    findings = sort_findings(findings)
+    if args.json:
+        doc = {
+            "family": name, "per": fam.per,
+            "units": {"T": "K", "drG_per": "kJ/mol"},
+            "members": [{"id": rid, "equation": hb.reactions[rid].equation, "nu_per": num(nu),
+                         "rows": [{"T": num(t), "drG_per": num(g)}
+                                  for t, g in zip(grid, rows[rid], strict=True)]}
+                        for rid, nu in pairs],
+            "skipped": list(skipped),
+            "crossings": [{"a": a, "b": b, "T": num(t), "drG_per": num(y)}
+                          for a, b, t, y in crossings],
+            "findings": [x.to_json() for x in findings],
+            "caution": CAUTION,
+        }
+        print(json.dumps(doc, indent=2, ensure_ascii=False, sort_keys=False))
+    else:
+        print(family_report(name, fam.title, fam.per, per_label(hb, fam), pairs,
+                            {rid: hb.reactions[rid].equation for rid in members}, skipped,
+                            grid, rows, crossings, findings))
+    return 1 if any(x.severity is Severity.ERROR for x in findings) else 0
+
+
+def family_report(name: str, title: str, per: str | None, per_text: str,
+                  pairs: list[tuple[str, float]], equations: dict[str, str],
+                  skipped: list[str], grid: np.ndarray, rows: dict[str, np.ndarray],
+                  crossings, findings: list[Finding]) -> str:
+    """The text form of ``calc --family``: members, a table of ΔrG°/|ν_per| by T, the
+    skipped reactions, the crossovers, the findings and the caution."""
+    lines = [f"family: {name}" + (f" — {title}" if title and title != name else ""),
+             f"units: ΔrG° {per_text}, kJ/mol"
+             + (f" (ΔrG°/|ν({per})| of each member)" if per else "") + "; — where unknown", ""]
+    width = max([len(rid) for rid, _nu in pairs] + [1])
+    nu_width = max([len(f"{nu:g}") for _rid, nu in pairs] + [1])
+    for rid, nu in pairs:
+        lines.append(f"  {rid.ljust(width)}  |ν| = {f'{nu:g}'.ljust(nu_width)}  "
+                     f"{equations[rid]}")
+    if pairs:
+        table = [["T/K", *(rid for rid, _nu in pairs)]]
+        for i, t in enumerate(grid):
+            table.append([f"{t:.2f}", *(_cell(rows[rid][i], "{:.3f}") for rid, _nu in pairs)])
+        widths = [max(len(r[j]) for r in table) for j in range(len(table[0]))]
+        lines.append("")
+        lines += ["  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in table]
+    else:
+        lines.append("  no member of this family can be normalised")
+    lines.append("")
+    lines.append("skipped (no " + (per or "per species") + "): "
+                 + (", ".join(skipped) if skipped else "none"))
+    span = f"{grid[0]:g}–{grid[-1]:g} K"
+    if crossings:
+        lines.append(f"lines cross within {span}:")
+        lines += [f"  {a} = {b} at {t:.1f} K ({_cell(y, '{:.3f}')} kJ/mol)"
+                  for a, b, t, y in crossings]
+    elif len(grid) > 1:
+        lines.append(f"no two lines cross within {span}")
+    else:
+        lines.append("crossings need a temperature range (give -T twice or --range)")
+    for x in findings:
+        lines.append(x.format())
+    lines.append("")
+    lines.append(f"CAUTION: {CAUTION}")
+    return "\n".join(lines)

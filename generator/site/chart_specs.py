@@ -448,12 +448,14 @@ def _role(i: int) -> str:
 
 def _conversion(rr: ReactionResult, computed: Computed) -> ChartEntry | None:
     """Equilibrium conversion of the first reactant against T, one line per (feed, P)."""
-    from generator.site import design_pages as design
+    from generator.design import design_of
+    from generator.design import reaction_design as compute_reaction_design
 
-    T = design.chart_temperatures(rr, computed)
+    d = design_of(computed).reactions.get(rr.reaction.id) or compute_reaction_design(rr, computed)
+    T = d.chart_T
     if len(T) < 2:
         return None
-    cs = design.conversion_curves(rr, computed, T)
+    cs = d.chart_conversion
     if cs is None:
         return None
     series = []
@@ -518,9 +520,9 @@ def _cell_voltages(rr: ReactionResult, computed: Computed) -> ChartEntry | None:
 
 def family_chart(computed: Computed, name: str) -> ChartEntry | None:
     """ΔrG°(T)/|ν_per| of every member of a family, crossovers of the lines marked."""
-    from generator.site import design_pages as design
+    from generator.site.design_pages import family_curves
 
-    fc = design.family_curves(computed, name)
+    fc = family_curves(computed, name)
     names = {rid: computed.reactions[rid].reaction.name for rid in fc.members}
     series = [s for i, rid in enumerate(fc.members)
               if (s := _finite_series(names[rid], fc.T, fc.curves[rid], _role(i))) is not None]
@@ -550,11 +552,11 @@ def family_chart(computed: Computed, name: str) -> ChartEntry | None:
 
 def element_ladder(computed: Computed, symbol: str) -> ChartEntry | None:
     """Every species containing ``symbol`` at its ΔfH° and ΔfG° per atom (two columns)."""
-    from generator.site import design_pages as design
+    from generator.site.design_pages import ladder_points
 
     levels = []
     text = []
-    for p in design.ladder_points(computed, symbol):
+    for p in ladder_points(computed, symbol):
         label = species_label(computed.handbook.species[p.species])
         if p.dfH is not None:
             levels.append(Level(f"h-{p.species}", label, p.dfH, 0))
@@ -578,7 +580,7 @@ def element_ladder(computed: Computed, symbol: str) -> ChartEntry | None:
 
 def handbook_charts(computed: Computed) -> dict[str, list[ChartEntry]]:
     """Charts of the handbook-wide pages, keyed ``family:<name>`` and ``element:<symbol>``."""
-    from generator.site import design_pages as design
+    from generator import design
 
     out: dict[str, list[ChartEntry]] = {}
     for name in design.family_names(computed):

@@ -1,27 +1,39 @@
 """Design reference on the site: equilibrium conversion, adiabatic temperature, cell
-voltages, family charts and element ladders.  Pure: numbers from generator.thermo and the
-computed handbook, formatted by generator.site.pages; no file, clock or process access.
-
-* Equilibrium conversion: generator.thermo.equilibrium (ideal activities; Smith, Van Ness &
-  Abbott, Introduction to Chemical Engineering Thermodynamics, 7th ed., ch. 13).
-* Adiabatic temperature: generator.thermo.adiabatic (first-law balance, ibid. sec. 4.7).
-* Cell voltages: generator.thermo.electrochem, E° = −ΔrG°/(nF), Etn = ΔrH°/(nF).
-* Family charts: ΔrG°(T)/|ν_per| of each member; the crossover of two members is where the
-  difference of their normalised curves changes sign, placed by linear interpolation.
-* Element ladders: ΔfH° and ΔfG° at 298.15 K per atom of the element, X/n_X.
+voltages, family charts and element ladders.  Formatting only: the numbers come from
+``computed.design`` (generator.design, the compute stage), formatted by
+generator.site.pages; no file, clock or process access.
 """
 
 from __future__ import annotations
 
 import re
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
 
 import numpy as np
 from markupsafe import Markup
 
 from generator.compute import Computed, ReactionResult
-from generator.model import Family
+from generator.design import (  # re-exported: the site's names for the design numbers
+    CHART_T_POINTS,
+    ConversionSet,
+    DesignResult,
+    FamilyCurves,
+    LadderPoint,
+    _crossings,
+    adiabatic_feed,
+    chart_temperatures,
+    conversion_curves,
+    design_of,
+    element_symbols,
+    family_names,
+    family_of,
+    first_reactant,
+    pressure_label,
+    shows_equilibrium,
+    table_temperatures,
+)
+from generator.design import family_curves as _family_curves
+from generator.design import reaction_design as compute_reaction_design
 from generator.site.pages import (
     MISSING,
     ChartView,
@@ -35,11 +47,7 @@ from generator.site.pages import (
     species_label,
     temperature,
 )
-from generator.thermo.adiabatic import adiabatic_caution, adiabatic_temperature
-from generator.thermo.electrochem import cell_voltages, voltage_efficiency
-from generator.thermo.equilibrium import EquilibriumCurve, equilibrium_curves, stoichiometric_feed
 
-CHART_T_POINTS = 61  # points of an equilibrium conversion curve on its chart
 _SLUG = re.compile(r"[^a-z0-9._-]+")
 
 
@@ -62,98 +70,23 @@ def percent(x: float | None) -> str:
     return MISSING if text == MISSING else f"{text} %"
 
 
-def pressure_label(P: float) -> str:
-    """A total pressure in bar for a legend: "1 bar", "20 bar", "0.5 bar"."""
-    return f"{P / 1.0e5:g} bar"
+def _design(rr: ReactionResult, computed: Computed) -> DesignResult:
+    d = design_of(computed).reactions.get(rr.reaction.id)
+    return d if d is not None else compute_reaction_design(rr, computed)
 
 
 # --- equilibrium conversion ------------------------------------------------------------------
 
 
-def shows_equilibrium(rr: ReactionResult) -> bool:
-    """A reaction with ``conditions:`` other than just the operating voltage."""
-    c = rr.reaction.conditions
-    if c is None:
-        return False
-    return bool(c.feeds) or c.T_range is not None or tuple(c.pressures) != (1.0e5,) \
-        or c.voltage is None
-
-
-def _feeds(rr: ReactionResult) -> list[tuple[str, dict[str, float]]]:
-    c = rr.reaction.conditions
-    if c is not None and c.feeds:
-        return [(f.label, f.amounts) for f in c.feeds]
-    return [("stoichiometric reactants", stoichiometric_feed(rr.nu))]
-
-
-def first_reactant(rr: ReactionResult) -> str | None:
-    return next((t.species for t in rr.reaction.reactants if rr.nu.get(t.species, 0) < 0),
-                None)
-
-
-@dataclass(frozen=True)
-class ConversionSet:
-    """Equilibrium conversion curves of one reaction, each with its legend label."""
-
-    reactant: str
-    labels: tuple[str, ...]
-    curves: tuple[EquilibriumCurve, ...]
-
-
-def conversion_curves(rr: ReactionResult, computed: Computed, T: Sequence[float]
-                      ) -> ConversionSet | None:
-    """One curve per (feed, pressure) over ``T``; None when the sheet shows none."""
-    if not shows_equilibrium(rr):
-        return None
-    c = rr.reaction.conditions
-    feeds = _feeds(rr)
-    first = first_reactant(rr)
-    if first is None:
-        return None
-    hb = computed.handbook
-    try:
-        curves = equilibrium_curves(rr.nu, hb.species, [f for _l, f in feeds], T,
-                                    c.pressures, standard_pressure=hb.settings.standard_pressure,
-                                    first_reactant=first)
-    except ValueError:
-        return None
-    labels = []
-    for label, _f in feeds:
-        for P in c.pressures:
-            labels.append(f"{label}, {pressure_label(P)}" if len(feeds) > 1
-                          else f"P = {pressure_label(P)}")
-    return ConversionSet(first, tuple(labels), tuple(curves))
-
-
-def chart_temperatures(rr: ReactionResult, computed: Computed) -> np.ndarray:
-    c = rr.reaction.conditions
-    if c is not None and c.T_range is not None:
-        return np.linspace(c.T_range[0], c.T_range[1], CHART_T_POINTS)
-    return np.asarray(computed.handbook.settings.temperatures, dtype=float)
-
-
-def table_temperatures(rr: ReactionResult, computed: Computed) -> list[float]:
-    """The handbook grid inside ``conditions.T`` with its ends, else the whole grid."""
-    grid = [float(t) for t in computed.handbook.settings.temperatures]
-    c = rr.reaction.conditions
-    if c is None or c.T_range is None:
-        return grid
-    lo, hi = c.T_range
-    inside = sorted({lo, hi, *(t for t in grid if lo <= t <= hi)})
-    if len(inside) < 3:
-        inside = [float(t) for t in np.linspace(lo, hi, 5)]
-    return inside
-
-
 def equilibrium_context(rr: ReactionResult, computed: Computed) -> dict | None:
     """The small table beside the conversion chart."""
-    T = table_temperatures(rr, computed)
-    cs = conversion_curves(rr, computed, T)
+    d = _design(rr, computed)
+    cs = d.table_conversion
     if cs is None:
         return None
     sp = computed.handbook.species[cs.reactant]
     rows = []
-    for i, t in enumerate(T):
+    for i, t in enumerate(d.table_T):
         rows.append({"T": temperature(t), "extrapolated": any(bool(c.extrapolated[i])
                                                                 for c in cs.curves),
                      "cells": [percent(None if not np.isfinite(c.conversion[i])
@@ -163,38 +96,26 @@ def equilibrium_context(rr: ReactionResult, computed: Computed) -> dict | None:
             if c.T_range else "the handbook's temperature grid")
     return {"reactant": species_label(sp), "reactant_text": formula_text(sp.formula),
             "labels": list(cs.labels), "rows": rows, "span": span,
-            "feeds": [label for label, _f in _feeds(rr)]}
+            "feeds": list(d.feed_labels)}
 
 
 # --- adiabatic temperature -------------------------------------------------------------------
 
 
-def adiabatic_feed(rr: ReactionResult) -> tuple[str, dict[str, float], float]:
-    """(label, feed, T_in): the first feed of ``conditions`` else the stoichiometric
-    reactants; T_in from ``conditions`` (298.15 K by default)."""
-    c = rr.reaction.conditions
-    T_in = c.T_in if c is not None else 298.15
-    if c is not None and c.feeds:
-        return c.feeds[0].label, c.feeds[0].amounts, T_in
-    return "stoichiometric reactants", stoichiometric_feed(rr.nu), T_in
-
-
 def adiabatic_context(rr: ReactionResult, computed: Computed) -> dict:
-    label, feed, T_in = adiabatic_feed(rr)
+    a = _design(rr, computed).adiabatic
+    if a.result is None:
+        return {"feed": a.feed, "available": False, "note": a.error, "caution": None}
+    res = a.result
     hb = computed.handbook
-    try:
-        res = adiabatic_temperature(rr.nu, hb.species, feed, T_in)
-    except ValueError as exc:
-        return {"feed": label, "available": False, "note": str(exc), "caution": None}
     limiting = hb.species[res.limited_by] if res.limited_by else None
-    caution = adiabatic_caution(res.rise, hb.settings.adiabatic_caution_K)
     return {
-        "feed": label, "available": bool(np.isfinite(res.T_out)),
+        "feed": a.feed, "available": bool(np.isfinite(res.T_out)),
         "T_in": temperature(res.T_in), "T_out": temperature(res.T_out),
         "rise": temperature(res.rise),
         "limiting": species_label(limiting) if limiting is not None else MISSING,
         "note": res.note, "capped": res.capped, "extrapolated": res.extrapolated,
-        "caution": caution, "threshold": f"{hb.settings.adiabatic_caution_K:g} K",
+        "caution": a.caution, "threshold": f"{hb.settings.adiabatic_caution_K:g} K",
     }
 
 
@@ -203,17 +124,12 @@ def adiabatic_context(rr: ReactionResult, computed: Computed) -> dict:
 
 def electrochem_context(rr: ReactionResult, computed: Computed) -> dict | None:
     """E°, Etn and the reversible heat on the grid; efficiencies at ``conditions.voltage``."""
+    cell = _design(rr, computed).cell
+    if cell is None:
+        return None
     n = rr.reaction.electrons
-    if not n:
-        return None
-    hb = computed.handbook
-    T = np.asarray(hb.settings.temperatures, dtype=float)
-    try:
-        cv = cell_voltages(rr.nu, hb.species, T, n)
-    except ValueError:
-        return None
-    c = rr.reaction.conditions
-    V = c.voltage if c is not None else None
+    cv, V = cell.voltages, cell.voltage
+    T = np.asarray(computed.handbook.settings.temperatures, dtype=float)
     rows = []
     summary = None
     i_ref = _ref_index(T)
@@ -221,9 +137,7 @@ def electrochem_context(rr: ReactionResult, computed: Computed) -> dict | None:
         cells = [temperature(t), fixed(cv.E[i], "V"), fixed(cv.Etn[i], "V"),
                  fixed(cv.reversible_heat[i], "kJ"), fixed(cv.reversible_heat_V[i], "V"),
                  cv.mode[i]]
-        eff = None
-        if V is not None and np.isfinite(cv.E[i]) and np.isfinite(cv.Etn[i]):
-            eff = voltage_efficiency(float(cv.E[i]), float(cv.Etn[i]), V)
+        eff = cell.efficiencies[i]
         if V is not None:
             cells += [percent(eff.eta_V) if eff else MISSING,
                       percent(eff.eta_thermal) if eff else MISSING]
@@ -246,72 +160,10 @@ def electrochem_context(rr: ReactionResult, computed: Computed) -> dict | None:
 # --- families --------------------------------------------------------------------------------
 
 
-def family_names(computed: Computed) -> list[str]:
-    """Every family tagged on a reaction or listed in handbook.yaml, sorted."""
-    hb = computed.handbook
-    tagged = {fam for r in hb.reactions.values() for fam in r.family}
-    return sorted(tagged | set(hb.settings.families))
-
-
-def family_of(computed: Computed, name: str) -> Family:
-    return computed.handbook.settings.families.get(name) or Family(name, name, None)
-
-
-@dataclass(frozen=True)
-class FamilyCurves:
-    family: Family
-    per_label: str  # "per mol O₂(g)" or "per mole of reaction as written"
-    members: tuple[str, ...]  # reaction ids on the chart
-    skipped: tuple[str, ...]  # members without the ``per`` species
-    T: np.ndarray
-    curves: Mapping[str, np.ndarray]  # reaction id → ΔrG°/|ν_per|, kJ/mol
-    crossings: tuple[tuple[str, str, float, float], ...]  # (a, b, T, y)
-
-
-def _crossings(T: np.ndarray, a: np.ndarray, b: np.ndarray) -> list[tuple[float, float]]:
-    """Where a − b changes sign, by linear interpolation between neighbouring points."""
-    d = a - b
-    out = []
-    for i in range(len(T) - 1):
-        d0, d1 = d[i], d[i + 1]
-        if not (np.isfinite(d0) and np.isfinite(d1)):
-            continue
-        if d0 == 0.0 and (i == 0 or not np.isfinite(d[i - 1]) or d[i - 1] != 0.0):
-            out.append((float(T[i]), float(a[i])))
-        elif d0 * d1 < 0:
-            f = d0 / (d0 - d1)
-            t = T[i] + f * (T[i + 1] - T[i])
-            out.append((float(t), float(a[i] + f * (a[i + 1] - a[i]))))
-    return out
-
-
 def family_curves(computed: Computed, name: str) -> FamilyCurves:
-    fam = family_of(computed, name)
-    hb = computed.handbook
-    ids = sorted(rid for rid, r in hb.reactions.items() if name in r.family)
-    per_sp = hb.species.get(fam.per) if fam.per else None
-    per_label = (f"per mol {formula_text(per_sp.formula)}({per_sp.phase})" if per_sp
-                 else "per mole of reaction as written")
-    members, skipped, curves = [], [], {}
-    T = np.zeros(0)
-    for rid in ids:
-        rr = computed.reactions[rid]
-        nu = abs(float(rr.nu.get(fam.per, 0.0))) if fam.per else 1.0
-        if nu == 0.0:
-            skipped.append(rid)
-            continue
-        members.append(rid)
-        T = np.asarray(rr.curve.T, dtype=float)
-        curves[rid] = np.asarray(rr.curve.drG, dtype=float) / nu
-    crossings = []
-    for i, a in enumerate(members):
-        for b in members[i + 1:]:
-            if len(curves[a]) != len(curves[b]):
-                continue
-            crossings += [(a, b, t, y) for t, y in _crossings(T, curves[a], curves[b])]
-    crossings.sort(key=lambda c: (c[2], c[0], c[1]))
-    return FamilyCurves(fam, per_label, tuple(members), tuple(skipped), T, curves,
-                        tuple(crossings))
+    """The family's lines from ``computed.design``."""
+    fc = design_of(computed).families.get(name)
+    return fc if fc is not None else _family_curves(computed, name)
 
 
 def family_context(computed: Computed, name: str, site: dict,
@@ -322,7 +174,6 @@ def family_context(computed: Computed, name: str, site: dict,
     ctx = _base(site, path, f"Family: {title}", "reactions")
     root = ctx["root"]
     hb = computed.handbook
-    i = _ref_index(np.asarray(hb.settings.temperatures, dtype=float))
     line_charts, _levels = _charts(charts, root)
 
     def link(rid: str) -> dict:
@@ -330,12 +181,8 @@ def family_context(computed: Computed, name: str, site: dict,
         return {"href": f"{root}reactions/{rid}.html", "name": rr.reaction.name,
                 "equation": equation_html(rr, hb.species), "id": rid}
 
-    members = []
-    for rid in fc.members:
-        rr = computed.reactions[rid]
-        nu = abs(float(rr.nu.get(fc.family.per, 1.0))) if fc.family.per else 1.0
-        g = None if i is None else float(rr.grid.drG[i]) / nu
-        members.append({**link(rid), "nu": f"{nu:g}", "drG": fixed(g, "kJ")})
+    members = [{**link(rid), "nu": f"{fc.nu_per[rid]:g}", "drG": fixed(fc.drG_ref[rid], "kJ")}
+               for rid in fc.members]
     names = {rid: computed.reactions[rid].reaction.name for rid in fc.members}
     ctx.update({
         "name": name, "title": title, "per": fc.per_label,
@@ -352,37 +199,9 @@ def family_context(computed: Computed, name: str, site: dict,
 # --- element ladders -------------------------------------------------------------------------
 
 
-@dataclass(frozen=True)
-class LadderPoint:
-    species: str
-    atoms: int
-    dfH: float | None  # kJ per mol of atoms of the element
-    dfG: float | None
-
-
-def element_symbols(computed: Computed) -> list[str]:
-    return sorted({el for sr in computed.species.values() for el, _n in sr.species.elements})
-
-
 def ladder_points(computed: Computed, symbol: str) -> list[LadderPoint]:
-    """Every species containing ``symbol``, with ΔfH° and ΔfG° (298.15 K) per atom of it,
-    lowest ΔfH° per atom first."""
-    out = []
-    for sid in sorted(computed.species):
-        sr = computed.species[sid]
-        n = sr.species.element_counts.get(symbol)
-        if not n:
-            continue
-        q = sr.species.standard.get("dfH")
-        dfH = float(q.preferred.value) / n if q is not None else None
-        i = _ref_index(sr.formation.T)
-        g = float(sr.formation.dfG[i]) if i is not None else None
-        if g is None or not np.isfinite(g):
-            gq = sr.species.standard.get("dfG")
-            g = float(gq.preferred.value) if gq is not None else None
-        out.append(LadderPoint(sid, n, dfH if dfH is not None and np.isfinite(dfH) else None,
-                               None if g is None else g / n))
-    return sorted(out, key=lambda p: (p.dfH if p.dfH is not None else np.inf, p.species))
+    """The element's ladder from ``computed.design`` (lowest ΔfH° per atom first)."""
+    return list(design_of(computed).ladders.get(symbol, ()))
 
 
 def element_context(computed: Computed, symbol: str, site: dict,
@@ -423,3 +242,12 @@ def reaction_design(rr: ReactionResult, computed: Computed) -> dict:
     return {"equilibrium": equilibrium_context(rr, computed),
             "adiabatic": adiabatic_context(rr, computed),
             "cell": electrochem_context(rr, computed)}
+
+
+__all__ = ["CHART_T_POINTS", "ConversionSet", "FamilyCurves", "LadderPoint", "_crossings",
+           "adiabatic_context", "adiabatic_feed", "chart_temperatures", "conversion_curves",
+           "design_pages", "electrochem_context", "element_context", "element_href",
+           "element_symbols", "equilibrium_context", "family_context", "family_curves",
+           "family_href", "family_names", "family_of", "first_reactant", "ladder_points",
+           "percent", "pressure_label", "reaction_design", "shows_equilibrium", "slug",
+           "table_temperatures"]
