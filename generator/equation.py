@@ -22,6 +22,7 @@ from dataclasses import dataclass
 
 from generator.formula import Formula, FormulaError, parse_formula
 from generator.model import PHASES
+from generator.parse_error import LocatedParseError
 
 ARROWS: tuple[str, ...] = ("<=>", "->", "→", "⇌", "=")
 MAX_COEFFICIENT = 10**6
@@ -35,14 +36,8 @@ _PHASE_GROUP_RE = re.compile(r"\((" + "|".join(PHASES) + r")\)")
 _PHASE_HINT = "the phase is one of " + ", ".join(f"({p})" for p in PHASES)
 
 
-class EquationError(ValueError):
+class EquationError(LocatedParseError):
     """A malformed equation; ``col`` is the 1-based column in the equation string."""
-
-    def __init__(self, message: str, col: int, hint: str | None = None) -> None:
-        super().__init__(f"column {col}: {message}" + (f" ({hint})" if hint else ""))
-        self.message = message
-        self.col = col
-        self.hint = hint
 
 
 @dataclass(frozen=True)

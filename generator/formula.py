@@ -22,6 +22,7 @@ import html as _html
 from dataclasses import dataclass
 
 from generator.atomic_weights import STANDARD_ATOMIC_WEIGHTS
+from generator.parse_error import LocatedParseError
 
 MAX_COUNT = 10**6
 _UPPER = frozenset("ABCDEFGHIJKLMNOPQRSTUVWXYZ")
@@ -35,14 +36,8 @@ _SUB = str.maketrans("0123456789", "₀₁₂₃₄₅₆₇₈₉")
 _SUP = str.maketrans("0123456789+-", "⁰¹²³⁴⁵⁶⁷⁸⁹⁺⁻")
 
 
-class FormulaError(ValueError):
+class FormulaError(LocatedParseError):
     """A malformed formula; ``col`` is the 1-based column in the formula string."""
-
-    def __init__(self, message: str, col: int, hint: str | None = None) -> None:
-        super().__init__(f"column {col}: {message}" + (f" ({hint})" if hint else ""))
-        self.message = message
-        self.col = col
-        self.hint = hint
 
 
 @dataclass(frozen=True)

@@ -38,6 +38,27 @@ def _yaml_files(folder: Path) -> list[Path]:
     return sorted(p for p in folder.iterdir() if p.suffix in (".yaml", ".yml") and p.is_file())
 
 
+def _read_items(folder: Path, read, kind: str, findings: list[Finding]) -> dict:
+    """One item per YAML file in ``folder``, by id; a second file with an id is an error."""
+    items: dict = {}
+    for file in _yaml_files(folder):
+        path = display_path(file)
+        doc, fs = read_yaml_file(file, path)
+        findings += fs
+        if doc is None and fs:
+            continue
+        item = read(FileReader(path, findings), doc)
+        if item is None:
+            continue
+        if item.id in items:
+            findings.append(error("duplicate-id", f"duplicate {kind} id '{item.id}' (first in "
+                                  f"{items[item.id].path})", item.location,
+                                  hint="ids must be unique across the handbook"))
+            continue
+        items[item.id] = item
+    return items
+
+
 def load_handbook(root: Path) -> tuple[Handbook | None, list[Finding]]:
     """Read and check every source file under ``root``; the handbook is None on any error."""
     findings: list[Finding] = []
@@ -79,39 +100,10 @@ def load_handbook(root: Path) -> tuple[Handbook | None, list[Finding]]:
             else:
                 references[ref.key] = ref
 
-    species: dict[str, Species] = {}
-    for file in _yaml_files(root / "species"):
-        path = display_path(file)
-        doc, fs = read_yaml_file(file, path)
-        findings += fs
-        if doc is None and fs:
-            continue
-        sp = read_species(FileReader(path, findings), doc)
-        if sp is None:
-            continue
-        if sp.id in species:
-            findings.append(error("duplicate-id", f"duplicate species id '{sp.id}' (first in "
-                                  f"{species[sp.id].path})", sp.location,
-                                  hint="ids must be unique across the handbook"))
-            continue
-        species[sp.id] = sp
-
-    raw_reactions: dict[str, RawReaction] = {}
-    for file in _yaml_files(root / "reactions"):
-        path = display_path(file)
-        doc, fs = read_yaml_file(file, path)
-        findings += fs
-        if doc is None and fs:
-            continue
-        rx = read_reaction(FileReader(path, findings), doc)
-        if rx is None:
-            continue
-        if rx.id in raw_reactions:
-            findings.append(error("duplicate-id", f"duplicate reaction id '{rx.id}' (first in "
-                                  f"{raw_reactions[rx.id].path})", rx.location,
-                                  hint="ids must be unique across the handbook"))
-            continue
-        raw_reactions[rx.id] = rx
+    species: dict[str, Species] = _read_items(root / "species", read_species, "species",
+                                              findings)
+    raw_reactions: dict[str, RawReaction] = _read_items(root / "reactions", read_reaction,
+                                                        "reaction", findings)
 
     reactions = resolve_reactions(raw_reactions, species, findings)
     if settings is not None:
