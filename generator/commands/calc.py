@@ -35,6 +35,8 @@ def register(sub) -> None:
                        "for an equation or a reaction id, from the handbook's species data.")
     p.add_argument("equation", nargs="?", help='e.g. "CH4(g) + H2O(g) -> CO(g) + 3 H2(g)", or '
                    "a reaction id (not with --family)")
+    p.add_argument("--element", metavar="SYMBOL", help="the ladder of an element: every "
+                   "species containing it by ΔfH° and ΔfG° (298.15 K) per atom of it")
     p.add_argument("--family", metavar="NAME", help="every member of a reaction family: ΔrG° "
                    "per mole of the family's per species, and where two members' lines cross")
     p.add_argument("-T", dest="temperatures", action="append", default=[], metavar="K",
@@ -92,6 +94,10 @@ def temperatures(args: argparse.Namespace) -> list[float] | str:
 
 
 def run(args: argparse.Namespace) -> int:
+    if args.element is not None:
+        if args.equation is not None or args.family is not None:
+            return _usage("--element goes alone, without an equation or --family")
+        return run_element(args)
     if (args.equation is None) == (args.family is None):
         return _usage("give an equation (or reaction id) or --family NAME, not both"
                       if args.family is not None else "give an equation, a reaction id or "
@@ -554,3 +560,55 @@ def family_report(name: str, title: str, per: str | None, per_text: str,
     lines.append("")
     lines.append(f"CAUTION: {CAUTION}")
     return "\n".join(lines)
+
+
+# --- --element: ΔfH° and ΔfG° per atom of one element -------------------------------------
+
+
+def run_element(args: argparse.Namespace) -> int:
+    """Every species containing ``--element``, lowest ΔfH° per atom first
+    (generator.design.ladder_points, the same values as the site's element ladder)."""
+    from generator.compute import compute_handbook
+    from generator.design import element_symbols, ladder_points
+
+    handbook, load_findings = load_handbook(Path(args.sources))
+    if handbook is None:
+        for f in sort_findings(load_findings):
+            print(f.format(), file=sys.stderr)
+        print("thermofolio calc: the handbook has errors; run thermofolio check", file=sys.stderr)
+        return 1
+    computed = compute_handbook(handbook)
+    symbol = args.element.strip()
+    symbols = element_symbols(computed)
+    if symbol not in symbols:
+        close = difflib.get_close_matches(symbol, symbols, n=1)
+        hint = f"did you mean '{close[0]}'?" if close else "elements: " + ", ".join(symbols)
+        print(f"thermofolio calc: error: no species contains '{symbol}' ({hint})",
+              file=sys.stderr)
+        return 1
+    points = ladder_points(computed, symbol)
+    species = computed.handbook.species
+    if args.json:
+        doc = {"element": symbol, "units": {"dfH_per_atom": "kJ/mol", "dfG_per_atom": "kJ/mol"},
+               "T": 298.15,
+               "species": [{"id": p.species, "formula": species[p.species].formula,
+                            "phase": species[p.species].phase, "n": p.atoms,
+                            "dfH_per_atom": num(p.dfH), "dfG_per_atom": num(p.dfG)}
+                           for p in points],
+               "caution": CAUTION}
+        print(json.dumps(doc, indent=2, ensure_ascii=False))
+        return 0
+    rows = [("species", "n", f"ΔfH°/n({symbol})", f"ΔfG°/n({symbol})")]
+    for p in points:
+        sp = species[p.species]
+        rows.append((f"{sp.formula}({sp.phase}) {p.species}", str(p.atoms),
+                     "—" if p.dfH is None else f"{p.dfH:.3f}".replace("-", "−"),
+                     "—" if p.dfG is None else f"{p.dfG:.3f}".replace("-", "−")))
+    widths = [max(len(r[j]) for r in rows) for j in range(4)]
+    lines = [f"element ladder of {symbol} at 298.15 K, kJ per mol of {symbol} atoms "
+             "(elements in their reference states at zero)", ""]
+    lines += ["  ".join(c.ljust(w) if j == 0 else c.rjust(w)
+                        for j, (c, w) in enumerate(zip(r, widths, strict=True))) for r in rows]
+    lines += ["", f"CAUTION: {CAUTION}"]
+    print("\n".join(lines))
+    return 0
