@@ -65,6 +65,16 @@ def _usage(message: str) -> int:
     return 2
 
 
+def load_or_report(sources: Path):
+    """The loaded handbook, or None after printing its errors (for every calc mode)."""
+    handbook, load_findings = load_handbook(sources)
+    if handbook is None:
+        for f in sort_findings(load_findings):
+            print(f.format(), file=sys.stderr)
+        print("thermofolio calc: the handbook has errors; run thermofolio check", file=sys.stderr)
+    return handbook
+
+
 def temperatures(args: argparse.Namespace) -> list[float] | str:
     """The requested temperatures, or a message saying what is wrong."""
     temps: list[float] = []
@@ -119,11 +129,8 @@ def run(args: argparse.Namespace) -> int:
         return _usage("--T-in must be a temperature above 0 K")
     if args.voltage is not None and not (math.isfinite(args.voltage) and args.voltage > 0):
         return _usage("--voltage must be a positive number of volts")
-    handbook, load_findings = load_handbook(Path(args.sources))
+    handbook = load_or_report(Path(args.sources))
     if handbook is None:
-        for f in sort_findings(load_findings):
-            print(f.format(), file=sys.stderr)
-        print("thermofolio calc: the handbook has errors; run thermofolio check", file=sys.stderr)
         return 1
     from generator.compute import compute_handbook, evaluate_reaction
 
@@ -455,11 +462,8 @@ def run_family(args: argparse.Namespace, temps: list[float]) -> int:
     for attr, flag in _NOT_WITH_FAMILY:
         if getattr(args, attr) not in (None, False, []):
             return _usage(f"{flag} does not go with --family")
-    handbook, load_findings = load_handbook(Path(args.sources))
+    handbook = load_or_report(Path(args.sources))
     if handbook is None:
-        for f in sort_findings(load_findings):
-            print(f.format(), file=sys.stderr)
-        print("thermofolio calc: the handbook has errors; run thermofolio check", file=sys.stderr)
         return 1
     computed = compute_handbook(handbook)
     hb = computed.handbook
@@ -571,11 +575,8 @@ def run_element(args: argparse.Namespace) -> int:
     from generator.compute import compute_handbook
     from generator.design import element_symbols, ladder_points
 
-    handbook, load_findings = load_handbook(Path(args.sources))
+    handbook = load_or_report(Path(args.sources))
     if handbook is None:
-        for f in sort_findings(load_findings):
-            print(f.format(), file=sys.stderr)
-        print("thermofolio calc: the handbook has errors; run thermofolio check", file=sys.stderr)
         return 1
     computed = compute_handbook(handbook)
     symbol = args.element.strip()
