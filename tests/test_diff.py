@@ -11,6 +11,7 @@ from pathlib import Path
 import pytest
 
 from conftest import assemble
+from generator.caution import CAUTION
 from generator.cli import main
 from generator.edition_diff import diff_revisions, diff_trees
 
@@ -124,9 +125,11 @@ def test_worktree_and_cli(repo: Path, capsys):
                  "--format", "json"]) == 0
     j = json.loads(capsys.readouterr().out)
     assert {c["item"] for c in j["species"]} == {"water-gas", "oxygen"}
+    assert j["caution"] == CAUTION
     assert main(["diff", "HEAD", "--sources", str(repo / "sources")]) == 0
     out = capsys.readouterr().out
     assert "~ water-liquid (changed)" in out and "derived results that moved" in out
+    assert out.rstrip().endswith(f"CAUTION: {CAUTION}")
     assert main(["diff", "no-such-rev", "--sources", str(repo / "sources")]) == 2
     assert "no-such-rev" in capsys.readouterr().err
 

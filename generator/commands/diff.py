@@ -3,9 +3,12 @@
 from __future__ import annotations
 
 import argparse
+import json
 import sys
 import tempfile
 from pathlib import Path
+
+from generator.caution import CAUTION
 
 
 def register(sub) -> None:
@@ -30,7 +33,6 @@ def run(args: argparse.Namespace) -> int:
         diff_trees,
         extract_revision,
         git_toplevel,
-        to_json_text,
     )
 
     sources = Path(args.sources)
@@ -57,10 +59,14 @@ def run(args: argparse.Namespace) -> int:
                 return 2
         (old_root, old_label), (new_root, new_label) = roots
         result = diff_trees(old_root, new_root, old_label, new_label)
+    # The derived results that moved are computed output: they carry the caution too.
     if args.format == "json":
-        print(to_json_text(result))
+        doc = result.to_json()
+        doc["caution"] = CAUTION
+        print(json.dumps(doc, indent=2, ensure_ascii=False))
     else:
         sys.stdout.write(result.to_text())
+        print(f"\nCAUTION: {CAUTION}")
     for e in result.errors:
         print(f"thermofolio diff: {e}", file=sys.stderr)
     return 1 if result.errors else 0
