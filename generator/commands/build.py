@@ -53,9 +53,8 @@ def build_site(sources: Path, output: Path, quiet: bool = False,
                args: argparse.Namespace | None = None) -> int:
     """Check the sources and publish the site; problems go to stderr; the exit code.
 
-    The steps are those of generator.pipeline.check_handbook (load, then the engine's
-    checks), kept apart here so the computed handbook is handed to the publisher instead of
-    being computed a second time."""
+    generator.pipeline.load_and_compute loads and computes once; the computed handbook goes
+    on to the publisher."""
     start = time.perf_counter()
     if args is None:
         args = argparse.Namespace(sources=str(sources), output=str(output), quiet=quiet)
@@ -68,15 +67,9 @@ def build_site(sources: Path, output: Path, quiet: bool = False,
         if record is not None:
             _report_up_to_date(record, output, quiet, start)
             return 0
-    from generator.load import load_handbook
+    from generator.pipeline import load_and_compute
 
-    handbook, findings = load_handbook(sources)
-    computed = None
-    if handbook is not None:
-        from generator.compute import compute_handbook
-
-        computed = compute_handbook(handbook)
-        findings = list(findings) + list(computed.findings)
+    handbook, computed, findings = load_and_compute(sources)
     findings = sort_findings(findings)
     for f in findings:
         if not quiet or f.severity is Severity.ERROR:
