@@ -3,8 +3,12 @@
 from __future__ import annotations
 
 import time
+from pathlib import Path
 
-from generator.yamlsource import parse_yaml_text
+import pytest
+
+from generator import yamlsource
+from generator.yamlsource import YList, YMap, parse_yaml_text
 
 
 def load(text: str):
@@ -82,3 +86,35 @@ def test_locations_are_one_based_and_point_inside_quotes():
 def test_several_documents_are_an_error():
     _, codes = load("a: 1\n---\nb: 2\n")
     assert codes == ["yaml-syntax"]
+
+
+def _tree(value):
+    """A value with every location it remembers, for comparing two parses."""
+    if isinstance(value, YMap):
+        return ("map", value.loc, sorted(value.key_locs.items()),
+                sorted(value.value_locs.items()), [(k, _tree(v)) for k, v in value.items()])
+    if isinstance(value, YList):
+        return ("list", value.loc, list(value.item_locs), [_tree(v) for v in value])
+    return (type(value).__name__, value)
+
+
+@pytest.mark.skipif(yamlsource.CParser is None, reason="PyYAML built without libyaml")
+def test_libyaml_and_pure_python_parsers_agree_on_every_bundled_file():
+    root = Path(__file__).resolve().parents[1]
+    files = sorted((root / "sources").rglob("*.yaml")) + sorted((root / "tests").rglob("*.yaml"))
+    assert len(files) > 100
+    for file in files:
+        text = file.read_bytes().decode("utf-8", "replace")
+        fast = yamlsource.parse_yaml_text(text, str(file))
+        pure = yamlsource._parse_pure(text, str(file))
+        assert [f.to_json() for f in fast[1]] == [f.to_json() for f in pure[1]], file
+        assert _tree(fast[0]) == _tree(pure[0]), file
+
+
+@pytest.mark.skipif(yamlsource.CParser is None, reason="PyYAML built without libyaml")
+def test_input_libyaml_stops_at_is_reported_by_the_pure_parser():
+    text = "a: 1\nb: [1, 2\n"
+    assert yamlsource._fast_node(text) is False
+    _value, findings = parse_yaml_text(text, "x.yaml")
+    assert findings == yamlsource._parse_pure(text, "x.yaml")[1]
+    assert findings[0].code == "yaml-syntax"
