@@ -8,6 +8,7 @@ are written as null, never as Infinity or NaN.
 
 from __future__ import annotations
 
+import json
 import math
 from collections.abc import Iterable, Sequence
 
@@ -110,3 +111,24 @@ def csv_table(rows: list[dict], columns: Sequence[str]) -> str:
 
 def as_array(values: Sequence[float]) -> np.ndarray:
     return np.asarray(values, dtype=float)
+
+
+_INLINE = json.JSONEncoder(sort_keys=True, ensure_ascii=False, allow_nan=False,
+                           separators=(", ", ": "))
+
+
+def json_text(doc, inline_depth: int = 2, _depth: int = 0, _pad: str = "") -> str:
+    """``doc`` as JSON text, keys sorted: one key or item per line down to ``inline_depth``
+    levels of nesting, every container deeper written on one line (a table row per line).
+
+    The deep parts go through the json module's C encoder, which the indenting encoder never
+    uses; the shallow layout is a few hundred lines at most."""
+    if _depth >= inline_depth or not isinstance(doc, dict | list) or not doc:
+        return _INLINE.encode(doc)
+    inner = _pad + " "
+    if isinstance(doc, dict):
+        parts = [f"{inner}{_INLINE.encode(str(k))}: "
+                 f"{json_text(doc[k], inline_depth, _depth + 1, inner)}" for k in sorted(doc)]
+        return "{\n" + ",\n".join(parts) + "\n" + _pad + "}"
+    parts = [inner + json_text(v, inline_depth, _depth + 1, inner) for v in doc]
+    return "[\n" + ",\n".join(parts) + "\n" + _pad + "]"

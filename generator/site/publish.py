@@ -24,6 +24,7 @@ from generator.diagnostics import Finding, Severity
 from generator.exports import (
     SPECIES_UNITS,
     csv_table,
+    json_text,
     num,
     reaction_json,
     species_rows,
@@ -194,11 +195,6 @@ def draw_charts(specs: Mapping[str, object], digests: Mapping[str, str],
 # --- exports (pure) ------------------------------------------------------------------------
 
 
-def _json_bytes(doc) -> bytes:
-    return (json.dumps(doc, sort_keys=True, indent=1, ensure_ascii=False, allow_nan=False)
-            + "\n").encode("utf-8")
-
-
 def _findings_of(findings: Sequence[Finding], item: str) -> list[Finding]:
     return [f for f in findings if f.item == item]
 
@@ -265,8 +261,12 @@ def _handbook_rest(computed: Computed) -> dict:
 _SLOT = "\0thermofolio-slot-{}\0"
 
 
+ITEM_DEPTH = 2  # an item's export: containers two levels down (a table row) on one line
+HANDBOOK_DEPTH = ITEM_DEPTH + 2  # the same rows inside data/handbook.json's item lists
+
+
 def _json_text(doc) -> str:
-    return json.dumps(doc, sort_keys=True, indent=1, ensure_ascii=False, allow_nan=False)
+    return json_text(doc, ITEM_DEPTH)
 
 
 def _nested_list(texts: Sequence[str]) -> str:
@@ -279,10 +279,11 @@ def _nested_list(texts: Sequence[str]) -> str:
 
 def _handbook_bytes(computed: Computed, species_texts: Sequence[str],
                     reaction_texts: Sequence[str]) -> bytes:
-    """``_json_bytes(handbook_doc(...))`` from the documents already encoded, byte for byte."""
+    """``json_text(handbook_doc(...), HANDBOOK_DEPTH)`` + newline from the documents already
+    encoded, byte for byte."""
     doc = {**_handbook_rest(computed), "species": _SLOT.format("species"),
            "reactions": _SLOT.format("reactions")}
-    text = _json_text(doc)
+    text = json_text(doc, HANDBOOK_DEPTH)
     for name, texts in (("species", species_texts), ("reactions", reaction_texts)):
         slot = json.dumps(_SLOT.format(name))
         assert text.count(slot) == 1

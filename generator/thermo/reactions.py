@@ -142,24 +142,26 @@ def crossover_temperatures(nu: Mapping[str, float], species: Mapping[str, Specie
 
     grid = np.linspace(lo, hi, CROSSOVER_GRID)
     g = drG(grid)
-    roots: list[float] = []
     if np.all(np.abs(g) < 1e-12):
-        return roots  # identically zero: at equilibrium everywhere, no crossover to report
-    for i in range(len(grid) - 1):
-        a, b, ga, gb = grid[i], grid[i + 1], g[i], g[i + 1]
-        if not (np.isfinite(ga) and np.isfinite(gb)):
-            continue
-        if ga == 0.0:
-            if not roots or abs(roots[-1] - a) > CROSSOVER_TOL_K:
-                roots.append(float(a))
-            continue
-        if ga * gb < 0.0:
-            while b - a > CROSSOVER_TOL_K:
-                sub = np.linspace(a, b, REFINE_POINTS)
-                gs = drG(sub)
-                k = int(np.flatnonzero(np.sign(gs[:-1]) * np.sign(gs[1:]) <= 0.0)[0])
-                a, b = sub[k], sub[k + 1]
-            roots.append(float(0.5 * (a + b)))
+        return []  # identically zero: at equilibrium everywhere, no crossover to report
+    ga, gb = g[:-1], g[1:]
+    finite = np.isfinite(ga) & np.isfinite(gb)
+    at_zero = np.flatnonzero(finite & (ga == 0.0))
+    brackets = np.flatnonzero(finite & (ga * gb < 0.0))
+    a, b = grid[brackets], grid[brackets + 1]
+    while a.size and float(np.max(b - a)) > CROSSOVER_TOL_K:  # every bracket in one call
+        sub = np.linspace(a, b, REFINE_POINTS, axis=1)
+        gs = drG(sub.ravel()).reshape(sub.shape)
+        change = np.sign(gs[:, :-1]) * np.sign(gs[:, 1:]) <= 0.0
+        k = np.argmax(change, axis=1)
+        rows = np.arange(a.size)
+        a, b = sub[rows, k], sub[rows, k + 1]
+    found = [(int(i), float(grid[i])) for i in at_zero]
+    found += [(int(i), float(0.5 * (x + y))) for i, x, y in zip(brackets, a, b, strict=True)]
+    roots: list[float] = []
+    for _i, T in sorted(found):
+        if not roots or abs(roots[-1] - T) > CROSSOVER_TOL_K:
+            roots.append(T)
     if g[-1] == 0.0 and (not roots or abs(roots[-1] - hi) > CROSSOVER_TOL_K):
         roots.append(float(hi))
     return roots
