@@ -321,6 +321,36 @@ def test_two_builds_are_byte_identical(site: Path, tmp_path: Path, monkeypatch) 
     assert [k for k in first if first[k] != second[k]] == []
 
 
+def test_sheets_rendered_by_worker_processes_are_byte_identical(site: Path, tmp_path: Path,
+                                                               monkeypatch) -> None:
+    """The demo has fewer items than the parallel threshold; forcing the workers on must not
+    change a byte (the module fixture built it in one process)."""
+    import multiprocessing
+
+    if "fork" not in multiprocessing.get_all_start_methods():
+        pytest.skip("the platform cannot fork; sheets are always rendered in one process")
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
+    monkeypatch.setattr(publish_mod, "PARALLEL_MIN_ITEMS", 1)
+    import os
+
+    pids = tmp_path / "pids"
+    pids.mkdir()
+    real = publish_mod.render_items
+
+    def spy(*args):
+        (pids / str(os.getpid())).touch()
+        return real(*args)
+
+    monkeypatch.setattr(publish_mod, "render_items", spy)
+    again = tmp_path / "forked"
+    assert build(DEMO, again, "-j", "2", "--no-cache") == 0
+    workers = {int(p.name) for p in pids.iterdir()}
+    assert workers and os.getpid() not in workers  # the sheets really left this process
+    first, second = tree(site), tree(again)
+    assert first.keys() == second.keys()
+    assert [k for k in first if first[k] != second[k]] == []
+
+
 def test_build_date_falls_back_to_newest_source(tmp_path: Path, monkeypatch) -> None:
     import os
 
@@ -345,8 +375,9 @@ def test_real_charts_are_drawn_and_linked(tmp_path: Path, monkeypatch) -> None:
                          series=(Series("Cp°", (300.0, 600.0, 900.0), (33.6, 36.3, 40.0)),))
     monkeypatch.setattr(publish_mod, "render_many", REAL_RENDER_MANY)
     monkeypatch.setattr(publish_mod, "chart_entries",
-                        lambda computed: {"species:water-gas": [Entry("cp", "Cp° of H₂O(g)",
-                                                                      spec)]})
+                        lambda computed, keys=None: {
+                            "species:water-gas": [Entry("cp", "Cp° of H₂O(g)", spec)]})
+    monkeypatch.setattr(publish_mod, "handbook_chart_entries", lambda computed: {})
     monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
     out = tmp_path / "out"
     assert build(MINI, out) == 0

@@ -243,3 +243,62 @@ def test_u_linear_gum_eq10():
     assert spp.u_linear([1.0, 0.0], [0.3, None]) == pytest.approx(0.3)
     np.testing.assert_allclose(spp.u_linear([1.0, 1.0], [0.3, np.array([0.4, 0.0])]),
                                [0.5, 0.3])
+
+
+def _demo_species() -> list[Species]:
+    from pathlib import Path
+
+    from generator.load import load_handbook
+
+    handbook, _ = load_handbook(Path(__file__).resolve().parents[1] / "sources")
+    return list(handbook.species.values())
+
+
+FIELDS = ("Cp", "H_minus_H298", "H", "S", "G", "gef", "extrapolated")
+
+
+def test_species_table_gives_each_species_the_bits_it_gets_alone(monkeypatch):
+    """Batches of every size and order, threads or not: the same numbers, bit for bit."""
+    demo = _demo_species()
+    kinds = {p.kind for sp in demo for p in sp.cp}
+    assert {"nasa7", "nasa9", "table"} <= kinds  # several layouts, so several groups
+    mixed = demo + [make_species("c", "X", "g", (("X", 1),), dfH=1.0, S=2.0, Cp=30.0),
+                    make_species("n", "Y", "g", (("Y", 1),), dfH=1.0, S=2.0),
+                    make_species("t", "Z", "g", (("Z", 1),), dfH=0.5, S=3.0, cp=(CpPiece(
+                        "table", 250.0, 900.0, table_T=(250.0, 500.0, 900.0),
+                        table_Cp=(20.0, 25.0, 27.0)),))]
+    T = np.array([298.15, 250.0, 700.0, 1500.0, 420.0, 5000.0])  # unsorted on purpose
+    alone = {sp.id: spp.species_functions(sp, T) for sp in mixed}
+    monkeypatch.setattr(spp, "THREADED_VALUES", 1)  # threads even for this small table
+    for order in (mixed, mixed[::-1], mixed[::3] + mixed[1::3] + mixed[2::3]):
+        table = spp.species_table(order, T)
+        for i, sp in enumerate(order):
+            for name in FIELDS:
+                assert np.array_equal(getattr(table, name)[i], getattr(alone[sp.id], name),
+                                      equal_nan=True), (sp.id, name)
+            assert table.covered[i] == alone[sp.id].covered
+            assert table.basis[i] == alone[sp.id].basis
+
+
+def test_polynomial_forms_agree_with_each_models_own_formulas():
+    """The batched path's c_n T^n form against cp_models' Horner forms of each kind."""
+    from generator.thermo import cp_models
+
+    T = np.linspace(250.0, 3000.0, 57)
+    shomate = CpPiece("shomate", 298.0, 3000.0,  # arbitrary coefficients: a form check only
+                      coeffs=(30.1, 6.8, 6.8, -2.5, 0.08, -250.9, 223.4, -241.8))
+    for sp in [*_demo_species(), make_species("s", "X", "g", (("X", 1),), cp=(shomate,))]:
+        for piece in sp.cp:
+            c = spp.poly_coefficients(piece)
+            if c is None:
+                continue
+            h, s = spp.poly_forms(c[None, :])
+            out = np.empty((1, T.size))
+            assert np.allclose(spp._poly_cp(c[None, :], T, out)[0], cp_models.cp(piece, T),
+                               rtol=1e-12, atol=1e-9)
+            dh = spp._poly_h(h, T, out.copy())[0]
+            ref = cp_models.h_antiderivative(piece, T)
+            assert np.allclose(dh - dh[0], ref - ref[0], rtol=1e-10, atol=1e-8)
+            ds = spp._poly_s(s, T, out.copy())[0]
+            ref = cp_models.s_antiderivative(piece, T)
+            assert np.allclose(ds - ds[0], ref - ref[0], rtol=1e-10, atol=1e-8)

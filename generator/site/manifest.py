@@ -18,7 +18,7 @@ from collections.abc import Mapping, Sequence
 from generator import __version__
 from generator.compute import Computed
 from generator.site.output import MARKER, MARKER_TEXT
-from generator.site.pages import Page, SiteMeta
+from generator.site.pages import SiteMeta
 from generator.site.provenance_view import rel_source
 
 MANIFEST = "manifest.json"
@@ -109,7 +109,7 @@ def page_sources(computed: Computed, page_path: str) -> list[str]:
     return all_sources(computed)
 
 
-def manifest_doc(files: Mapping[str, bytes], site_pages: Sequence[Page], computed: Computed,
+def manifest_doc(files: Mapping[str, bytes], page_paths: Sequence[str], computed: Computed,
                  meta: SiteMeta) -> dict:
     """The manifest of a build whose output is ``files`` (``manifest.json`` left out)."""
     files = {MARKER: MARKER_TEXT, **files}  # written beside them by generator.site.output
@@ -118,12 +118,11 @@ def manifest_doc(files: Mapping[str, bytes], site_pages: Sequence[Page], compute
         "build_date": meta.build_date,
         "files": [{"path": path, "sha256": hashlib.sha256(files[path]).hexdigest(),
                    "bytes": len(files[path])} for path in sorted(files) if path != MANIFEST],
-        "pages": {p.path: page_sources(computed, p.path)
-                  for p in sorted(site_pages, key=lambda p: p.path)},
+        "pages": {path: page_sources(computed, path) for path in sorted(page_paths)},
     }
 
 
-def manifest_bytes(files: Mapping[str, bytes], site_pages: Sequence[Page],
+def manifest_bytes(files: Mapping[str, bytes], page_paths: Sequence[str],
                    computed: Computed, meta: SiteMeta) -> bytes:
-    doc = manifest_doc(files, site_pages, computed, meta)
+    doc = manifest_doc(files, page_paths, computed, meta)
     return (json.dumps(doc, sort_keys=True, indent=1, ensure_ascii=False) + "\n").encode()

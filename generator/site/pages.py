@@ -89,6 +89,7 @@ def scientific(x: float | None) -> str:
     return f"{mantissa} × 10{str(power).translate(_SUPERSCRIPT)}"
 
 
+@lru_cache(maxsize=4096)
 def signed_number(nu: float) -> str:
     """A stoichiometric number as an exact fraction where it is one: −1/2, 2, −4."""
     frac = Fraction(nu).limit_denominator(1000)
@@ -140,23 +141,35 @@ def formula_text(formula: str) -> str:
 
 def species_label(sp: Species) -> Markup:
     """Formula with its phase (and polymorph): CaCO<sub>3</sub>(cr, calcite)."""
-    state = sp.phase + (f", {sp.form}" if sp.form else "")
-    return formula_html(sp.formula) + Markup("(") + state + Markup(")")
+    return _label(sp.formula, sp.phase, sp.form)
 
 
-def _side_html(terms: Iterable[tuple[float, Species]]) -> Markup:
+@lru_cache(maxsize=65536)
+def _label(formula: str, phase: str, form: str | None) -> Markup:
+    state = phase + (f", {form}" if form else "")
+    return formula_html(formula) + Markup("(") + state + Markup(")")
+
+
+def _side_html(terms: Iterable[tuple[float, str, str, str | None]]) -> Markup:
     parts = []
-    for nu, sp in terms:
+    for nu, formula, phase, form in terms:
         coef = coefficient(nu)
         parts.append((Markup(escape(coef)) + Markup("&#8239;") if coef else Markup(""))
-                     + species_label(sp))
+                     + _label(formula, phase, form))
     return Markup(" + ").join(parts)
 
 
 def equation_html(rr: ReactionResult, species: Mapping[str, Species]) -> Markup:
     """The net equation in HTML with sub- and superscripts, reactants → products."""
-    left = [(-nu, species[sid]) for sid, nu in _terms(rr) if nu < 0]
-    right = [(nu, species[sid]) for sid, nu in _terms(rr) if nu > 0]
+    terms = tuple((nu, species[sid].formula, species[sid].phase, species[sid].form)
+                  for sid, nu in _terms(rr))
+    return _equation_html(terms)
+
+
+@lru_cache(maxsize=16384)
+def _equation_html(terms: tuple[tuple[float, str, str, str | None], ...]) -> Markup:
+    left = [(-nu, *rest) for nu, *rest in terms if nu < 0]
+    right = [(nu, *rest) for nu, *rest in terms if nu > 0]
     return _side_html(left) + Markup(" → ") + _side_html(right)
 
 
@@ -868,11 +881,9 @@ def search_entries(computed: Computed) -> dict:
     return {"species": species, "reactions": reactions}
 
 
-def build_pages(computed: Computed, findings: Sequence[Finding], meta: SiteMeta,
-                charts: Mapping[str, Sequence[ChartView]], notes: Mapping[str, str]
-                ) -> list[Page]:
-    """Every page of the site, in a stable order.  ``charts`` and ``notes`` (rendered HTML)
-    are keyed ``species:<id>`` / ``reaction:<id>``; ``findings`` from all_findings."""
+def handbook_pages(computed: Computed, findings: Sequence[Finding], meta: SiteMeta,
+                   charts: Mapping[str, Sequence[ChartView]]) -> list[Page]:
+    """The pages about the whole handbook: indexes, audit, design and reference pages."""
     from generator.site.design_pages import design_pages
     from generator.site.provenance_view import changes_context
 
@@ -893,15 +904,35 @@ def build_pages(computed: Computed, findings: Sequence[Finding], meta: SiteMeta,
         pages.append(Page("changes.html", "changes.html",
                           changes_context(computed, meta.changes, site)))
     pages += design_pages(computed, site, charts)
-    for sid in sorted(computed.species):
-        key = f"species:{sid}"
-        pages.append(Page(f"species/{sid}.html", "species.html", species_context(
-            computed, sid, site, findings, charts.get(key, ()), notes.get(key, ""), meta)))
-    for rid in sorted(computed.reactions):
-        key = f"reaction:{rid}"
-        pages.append(Page(f"reactions/{rid}.html", "reaction.html", reaction_context(
-            computed, rid, site, findings, charts.get(key, ()), notes.get(key, ""), meta)))
     for ref in sorted(computed.handbook.references):
         pages.append(Page(f"references/{ref}.html", "reference.html",
                           reference_context(computed, ref, site, uses)))
     return pages
+
+
+def item_keys(computed: Computed) -> list[str]:
+    """``species:<id>`` and ``reaction:<id>`` of every item with a sheet, in a stable order."""
+    return ([f"species:{sid}" for sid in sorted(computed.species)]
+            + [f"reaction:{rid}" for rid in sorted(computed.reactions)])
+
+
+def item_page(computed: Computed, key: str, findings: Sequence[Finding], meta: SiteMeta,
+              charts: Sequence[ChartView], notes: str) -> Page:
+    """The sheet of one item (``species:<id>`` or ``reaction:<id>``)."""
+    kind, _, item = key.partition(":")
+    site = _site(computed, meta)
+    if kind == "species":
+        return Page(f"species/{item}.html", "species.html", species_context(
+            computed, item, site, findings, charts, notes, meta))
+    return Page(f"reactions/{item}.html", "reaction.html", reaction_context(
+        computed, item, site, findings, charts, notes, meta))
+
+
+def build_pages(computed: Computed, findings: Sequence[Finding], meta: SiteMeta,
+                charts: Mapping[str, Sequence[ChartView]], notes: Mapping[str, str]
+                ) -> list[Page]:
+    """Every page of the site, in a stable order.  ``charts`` and ``notes`` (rendered HTML)
+    are keyed ``species:<id>`` / ``reaction:<id>``; ``findings`` from all_findings."""
+    return handbook_pages(computed, findings, meta, charts) + [
+        item_page(computed, key, findings, meta, charts.get(key, ()), notes.get(key, ""))
+        for key in item_keys(computed)]

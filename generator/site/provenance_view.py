@@ -10,6 +10,7 @@ GUM (JCGM 100:2008 §5.1), normalised residuals as in generator.network.
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from functools import lru_cache
 from pathlib import PurePosixPath
 
 from markupsafe import Markup
@@ -34,6 +35,7 @@ CHANGE_WORDS = {"added": "added", "removed": "removed", "changed": "changed"}
 FIELD_SYMBOLS = {"dfH": "dfH", "dfG": "dfG", "S": "S", "Cp": "Cp"}
 
 
+@lru_cache(maxsize=65536)
 def rel_source(root: str, path: str) -> str:
     """A source file's path relative to the handbook folder, with forward slashes."""
     p, r = PurePosixPath(str(path).replace("\\", "/")), PurePosixPath(

@@ -85,20 +85,32 @@ def source_revision(root: Path) -> str:
 # --- charts --------------------------------------------------------------------------------
 
 
-def chart_entries(computed: Computed) -> dict[str, list]:
-    """ChartEntry lists from generator.site.chart_specs, keyed species:<id> / reaction:<id>."""
+def chart_entries(computed: Computed, keys: Sequence[str] | None = None) -> dict[str, list]:
+    """ChartEntry lists from generator.site.chart_specs, keyed species:<id> / reaction:<id>;
+    with ``keys``, those items' charts only, else every item's and the handbook pages'."""
     try:
         from generator.site import chart_specs
     except ImportError:  # the chart specs module is not part of this build
         return {}
     out: dict[str, list] = {}
-    for sid in sorted(computed.species):
-        out[f"species:{sid}"] = list(chart_specs.species_charts(computed.species[sid], computed))
-    for rid in sorted(computed.reactions):
-        out[f"reaction:{rid}"] = list(chart_specs.reaction_charts(computed.reactions[rid],
-                                                                   computed))
-    out.update(chart_specs.handbook_charts(computed))  # family and element pages
+    for key in pages.item_keys(computed) if keys is None else keys:
+        kind, _, item = key.partition(":")
+        if kind == "species":
+            out[key] = list(chart_specs.species_charts(computed.species[item], computed))
+        else:
+            out[key] = list(chart_specs.reaction_charts(computed.reactions[item], computed))
+    if keys is None:
+        out.update(handbook_chart_entries(computed))  # family and element pages
     return out
+
+
+def handbook_chart_entries(computed: Computed) -> dict[str, list]:
+    """The charts of the family and element pages, keyed family:<name> / element:<el>."""
+    try:
+        from generator.site import chart_specs
+    except ImportError:
+        return {}
+    return chart_specs.handbook_charts(computed)
 
 
 def chart_digest(spec) -> str:
@@ -291,23 +303,38 @@ def _handbook_bytes(computed: Computed, species_texts: Sequence[str],
     return (text + "\n").encode("utf-8")
 
 
-def export_files(computed: Computed, findings: Sequence[Finding]) -> dict[str, bytes]:
+def item_exports(computed: Computed, findings: Sequence[Finding], keys: Sequence[str]
+                 ) -> tuple[dict[str, bytes], dict[str, str]]:
+    """The JSON and CSV files of the items ``keys`` and each item's JSON text (for
+    data/handbook.json)."""
     files: dict[str, bytes] = {}
-    species_texts, reaction_texts = [], []
-    for sid in sorted(computed.species):
-        doc = species_doc(computed, sid, findings)
-        species_texts.append(_json_text(doc))
-        files[f"species/{sid}.json"] = (species_texts[-1] + "\n").encode("utf-8")
-        files[f"species/{sid}.csv"] = csv_table(doc["rows"], SPECIES_CSV).encode("utf-8")
-    for rid in sorted(computed.reactions):
-        doc = reaction_doc(computed, rid, findings)
-        reaction_texts.append(_json_text(doc))
-        files[f"reactions/{rid}.json"] = (reaction_texts[-1] + "\n").encode("utf-8")
-        files[f"reactions/{rid}.csv"] = csv_table(doc["rows"], REACTION_CSV).encode("utf-8")
-    files["data/handbook.json"] = _handbook_bytes(computed, species_texts, reaction_texts)
+    texts: dict[str, str] = {}
+    for key in keys:
+        kind, _, item = key.partition(":")
+        if kind == "species":
+            doc, folder, columns = species_doc(computed, item, findings), "species", SPECIES_CSV
+        else:
+            doc, folder, columns = reaction_doc(computed, item, findings), "reactions", \
+                REACTION_CSV
+        texts[key] = _json_text(doc)
+        files[f"{folder}/{item}.json"] = (texts[key] + "\n").encode("utf-8")
+        files[f"{folder}/{item}.csv"] = csv_table(doc["rows"], columns).encode("utf-8")
+    return files, texts
+
+
+def handbook_exports(computed: Computed, texts: Mapping[str, str]) -> dict[str, bytes]:
+    """data/handbook.json from every item's JSON text, and the search index."""
+    species = [texts[f"species:{sid}"] for sid in sorted(computed.species)]
+    reactions = [texts[f"reaction:{rid}"] for rid in sorted(computed.reactions)]
     index = json.dumps(pages.search_entries(computed), sort_keys=True, ensure_ascii=False,
                        separators=(",", ":"))
-    files["search-index.js"] = f"window.{SEARCH_GLOBAL} = {index};\n".encode()
+    return {"data/handbook.json": _handbook_bytes(computed, species, reactions),
+            "search-index.js": f"window.{SEARCH_GLOBAL} = {index};\n".encode()}
+
+
+def export_files(computed: Computed, findings: Sequence[Finding]) -> dict[str, bytes]:
+    files, texts = item_exports(computed, findings, pages.item_keys(computed))
+    files.update(handbook_exports(computed, texts))
     return files
 
 
@@ -320,12 +347,87 @@ def render_pages(site_pages: Sequence[pages.Page]) -> dict[str, bytes]:
             for p in site_pages}
 
 
-def notes_html(computed: Computed) -> dict[str, str]:
-    out = {f"species:{sid}": markdown_notes.render(computed.species[sid].species.notes)
-           for sid in sorted(computed.species)}
-    out.update({f"reaction:{rid}": markdown_notes.render(computed.reactions[rid].reaction.notes)
-                for rid in sorted(computed.reactions)})
+def notes_html(computed: Computed, keys: Sequence[str] | None = None) -> dict[str, str]:
+    out = {}
+    for key in pages.item_keys(computed) if keys is None else keys:
+        kind, _, item = key.partition(":")
+        item_of = computed.species[item].species if kind == "species" else \
+            computed.reactions[item].reaction
+        out[key] = markdown_notes.render(item_of.notes)
     return out
+
+
+# --- the sheets, rendered in worker processes ----------------------------------------------
+
+PARALLEL_MIN_ITEMS = 200  # fewer sheets than this are rendered in the build's own process
+
+
+@dataclass(frozen=True)
+class ItemBatch:
+    """What rendering some items' sheets gave: files by path, the sheets' paths, the charts
+    they show (specs and digests by chart path) and each item's JSON text."""
+
+    files: dict[str, bytes]
+    page_paths: list[str]
+    specs: dict[str, object]
+    digests: dict[str, str]
+    texts: dict[str, str]
+
+
+def render_items(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
+                 keys: Sequence[str]) -> ItemBatch:
+    """Chart specs, sheets and exports of the items ``keys`` (pure: no file is touched)."""
+    views, specs, digests = _plan(chart_entries(computed, keys))
+    notes = notes_html(computed, keys)
+    by_item: dict[str | None, list[Finding]] = {}
+    for f in findings:
+        by_item.setdefault(f.item, []).append(f)
+    sheets = [pages.item_page(computed, key, by_item.get(key.partition(":")[2], []), meta,
+                              views.get(key, ()), notes.get(key, "")) for key in keys]
+    files = render_pages(sheets)
+    exported, texts = item_exports(computed, findings, keys)
+    files.update(exported)
+    return ItemBatch(files, [p.path for p in sheets], specs, digests, texts)
+
+
+_SHARED: tuple | None = None  # what forked workers render from, set just before the fork
+
+
+def _render_chunk(keys: Sequence[str]) -> ItemBatch:
+    assert _SHARED is not None
+    return render_items(*_SHARED, keys)
+
+
+def render_all_items(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
+                     jobs: int, meanwhile=None) -> tuple[ItemBatch, object]:
+    """Every item's sheet: split over ``jobs`` forked workers, which inherit the computed
+    handbook instead of receiving it, when there are enough items and the platform forks.
+    ``meanwhile()`` runs in this process while the workers render; its result is returned."""
+    global _SHARED
+    import multiprocessing
+
+    keys = pages.item_keys(computed)
+    if jobs < 2 or len(keys) < PARALLEL_MIN_ITEMS or \
+            "fork" not in multiprocessing.get_all_start_methods():
+        batch = render_items(computed, findings, meta, keys)
+        return batch, meanwhile() if meanwhile else None
+    chunks = [keys[i::2 * jobs] for i in range(2 * jobs)]
+    _SHARED = (computed, findings, meta)
+    try:
+        with multiprocessing.get_context("fork").Pool(jobs) as pool:
+            pending = pool.map_async(_render_chunk, chunks)
+            extra = meanwhile() if meanwhile else None
+            batches = pending.get()
+    finally:
+        _SHARED = None
+    merged = ItemBatch({}, [], {}, {}, {})
+    for b in batches:
+        merged.files.update(b.files)
+        merged.page_paths.extend(b.page_paths)
+        merged.specs.update(b.specs)
+        merged.digests.update(b.digests)
+        merged.texts.update(b.texts)
+    return merged, extra
 
 
 def default_jobs() -> int:
@@ -364,16 +466,25 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
     meta = pages.SiteMeta(build_date=build_date(root), revision=source_revision(root),
                           histories=source_histories(root),
                           changes=getattr(args, "since_diff", None))
-    views, specs, digests = _plan(chart_entries(computed))
-    site_pages = pages.build_pages(computed, every, meta, views, notes_html(computed))
-    files = render_pages(site_pages)
-    files.update(export_files(computed, every))
-    files.update(assets.static_assets())
     jobs = int(getattr(args, "jobs", 0) or default_jobs())
+
+    def handbook_part():
+        views, specs, digests = _plan(handbook_chart_entries(computed))
+        return pages.handbook_pages(computed, every, meta, views), specs, digests
+
+    items, (site_pages, specs, digests) = render_all_items(computed, every, meta, jobs,
+                                                           handbook_part)
+    files = render_pages(site_pages)
+    files.update(items.files)
+    files.update(handbook_exports(computed, items.texts))
+    files.update(assets.static_assets())
+    specs.update(items.specs)
+    digests.update(items.digests)
+    page_paths = sorted([p.path for p in site_pages] + items.page_paths)
     cache = chart_cache_for(args, root)
     charts, stats = draw_charts(specs, digests, cache, jobs, quiet=quiet, start=start_time)
     files.update(charts)
-    files[manifest.MANIFEST] = manifest.manifest_bytes(files, site_pages, computed, meta)
+    files[manifest.MANIFEST] = manifest.manifest_bytes(files, page_paths, computed, meta)
     try:
         result = output.write_site(out, files)
     except OSError as exc:
@@ -384,13 +495,13 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
         n_warn = sum(f.severity is Severity.WARNING for f in every)
         elapsed = time.perf_counter() - start_time
         bad = f", {stats.rejected} bad cache entries redrawn" if stats.rejected else ""
-        print(f"thermofolio build: {len(site_pages)} pages, {stats.total} charts "
+        print(f"thermofolio build: {len(page_paths)} pages, {stats.total} charts "
               f"({stats.drawn} drawn, {stats.cached} cached{bad}), "
               f"{result.rewritten} files rewritten, {result.kept} unchanged, "
               f"{n_warn} warnings, {elapsed:.1f} s -> {out}", file=sys.stderr)
         print(f"CAUTION: {handbook.settings.caution or CAUTION}", file=sys.stderr)
     if hasattr(args, "__dict__"):  # what a later up-to-date build reports (commands.build)
-        args.build_record = {"pages": len(site_pages), "charts": stats.total,
+        args.build_record = {"pages": len(page_paths), "charts": stats.total,
                              "warnings": sum(f.severity is Severity.WARNING for f in every),
                              "caution": handbook.settings.caution or CAUTION,
                              "cache_entries": [] if cache is None else sorted(

@@ -37,6 +37,7 @@ taken as those of the 298.15 K values; the Cp integral's own uncertainty is not 
 
 from __future__ import annotations
 
+import os
 from collections import OrderedDict
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
@@ -164,27 +165,139 @@ class _Plan:
     h_offset: tuple[float, ...]
     s_offset: tuple[float, ...]
     covered: tuple[float, float]
+    poly: np.ndarray | None = None  # (pieces, 7) Cp coefficients on POWERS, J/(mol K)
+    poly_h: np.ndarray | None = None  # (pieces, 7) H antiderivative coefficients (poly_forms)
+    poly_s: np.ndarray | None = None  # (pieces, 7) S antiderivative coefficients
+    poly_h_offset: np.ndarray | None = None  # (pieces,) kJ/mol, joining _poly_h at 298.15 K
+    poly_s_offset: np.ndarray | None = None  # (pieces,) J/(mol K), joining _poly_s
+    bounds: np.ndarray | None = None  # (pieces, 2): each piece's Tmin, Tmax
+    contiguous: bool = False  # the pieces leave no gap: covered is the one range they span
+
+
+POWERS = (-2, -1, 0, 1, 2, 3, 4)  # every polynomial kind is Cp = sum c_n T^n over these n
+
+
+def poly_coefficients(piece: CpPiece) -> np.ndarray | None:
+    """c_n (J/(mol K)) with Cp = sum c_n T^n, n in POWERS, or None for a table piece.
+
+    Shomate with t = T/1000 K: A + B t + C t^2 + D t^3 + E/t^2 gives c_0 = A, c_1 = B/10^3,
+    c_2 = C/10^6, c_3 = D/10^9, c_-2 = 10^6 E; NASA 7: c_n = R a_(n+1); NASA 9: c_n = R a_(n+3)."""
+    if piece.kind == "table":
+        return None
+    k = cp_models._coeffs(piece)
+    c = np.zeros(len(POWERS))
+    if piece.kind == "constant":
+        c[2] = k[0]
+    elif piece.kind == "shomate":
+        A, B, C, D, E = k[:5]
+        c[:] = (1e6 * E, 0.0, A, B / 1e3, C / 1e6, D / 1e9, 0.0)
+    elif piece.kind == "nasa7":
+        c[2:] = np.asarray(k[:5]) * R
+    elif piece.kind == "nasa9":
+        c[:] = np.asarray(k[:7]) * R
+    else:
+        return None
+    return c
+
+
+def poly_forms(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """From Cp coefficients c_n (..., 7) on POWERS, those of the antiderivatives:
+    H (kJ/mol) = h_-2/T + h_-1 ln T + sum_(n>=0) h_n T^(n+1), h_n = c_n/((n+1) 1000),
+    h_-2 = -c_-2/1000, h_-1 = c_-1/1000;  S (J/(mol K)) = s_-2/T^2 + s_-1/T + s_0 ln T
+    + sum_(n>0) s_n T^n, s_n = c_n/n, s_-2 = -c_-2/2, s_-1 = -c_-1, s_0 = c_0."""
+    n = np.asarray(POWERS, dtype=float)
+    h = c / np.where(n == -1, 1.0, n + 1.0) / 1000.0
+    s = c / np.where(n == 0, 1.0, n)
+    return h, s
+
+
+def _horner(c: np.ndarray, T: np.ndarray, out: np.ndarray, first: int) -> np.ndarray:
+    """out = c_first + T (c_first+1 + ... + T c_6), in place; c is (rows, 7)."""
+    np.multiply(c[:, 6, None], T, out=out)
+    for k in range(5, first - 1, -1):
+        out += c[:, k, None]
+        if k > first:
+            out *= T
+    return out
+
+
+def _poly_cp(c: np.ndarray, T: np.ndarray, out: np.ndarray) -> np.ndarray:
+    """Cp = c_-2/T^2 + c_-1/T + c_0 + T (c_1 + T (c_2 + T (c_3 + T c_4))) into ``out``
+    (rows, points).  In-place elementwise operations in a fixed order, so a species'
+    values do not depend on the batch it is evaluated in."""
+    _horner(c, T, out, 2)
+    if np.any(c[:, :2]):
+        out += (c[:, 0, None] / T + c[:, 1, None]) / T
+    return out
+
+
+def _poly_h(h: np.ndarray, T: np.ndarray, out: np.ndarray) -> np.ndarray:
+    """H antiderivative (kJ/mol) from the h coefficients of poly_forms, into ``out``."""
+    _horner(h, T, out, 2)
+    out *= T
+    if np.any(h[:, :2]):
+        out += h[:, 0, None] / T + h[:, 1, None] * np.log(T)
+    return out
+
+
+def _poly_s(s: np.ndarray, T: np.ndarray, out: np.ndarray) -> np.ndarray:
+    """S antiderivative (J/(mol K)) from the s coefficients of poly_forms, into ``out``."""
+    _horner(s, T, out, 3)
+    out *= T
+    out += s[:, 2, None] * np.log(T)
+    if np.any(s[:, :2]):
+        out += (s[:, 0, None] / T + s[:, 1, None]) / T
+    return out
+
+
+def _poly_anti(fn, index: int):
+    def anti(piece: CpPiece, T) -> float:
+        forms = poly_forms(poly_coefficients(piece)[None, :])
+        T1 = np.atleast_1d(float(T))
+        return float(fn(forms[index], T1, np.empty((1, 1)))[0, 0])
+    return anti
 
 
 def _make_plan(cp: tuple[CpPiece, ...]) -> _Plan:
     pieces, switches = _layout(cp)
     models = tuple(cp_models._model(p) for p in pieces)
+    polys = [poly_coefficients(p) for p in pieces]
+    poly = h_off = s_off = h_form = s_form = None
+    if all(c is not None for c in polys):
+        poly = np.stack(polys)
+        h_form, s_form = poly_forms(poly)
+        h_off = np.asarray(_offsets(pieces, switches, _poly_anti(_poly_h, 0)))
+        s_off = np.asarray(_offsets(pieces, switches, _poly_anti(_poly_s, 1)))
     return _Plan(
         pieces=tuple(pieces), switches=switches, models=models,
         h_offset=tuple(_offsets(pieces, switches, cp_models.h_antiderivative)),
         s_offset=tuple(_offsets(pieces, switches, cp_models.s_antiderivative)),
         covered=(min(p.Tmin for p in pieces), max(p.Tmax for p in pieces)),
+        poly=poly, poly_h=h_form, poly_s=s_form, poly_h_offset=h_off, poly_s_offset=s_off,
+        bounds=np.asarray([(p.Tmin, p.Tmax) for p in pieces], dtype=float),
+        contiguous=all(hi.Tmin <= max(q.Tmax for q in pieces[:i + 1])
+                       for i, hi in enumerate(pieces[1:])),
     )
 
 
 _cached_plan = lru_cache(maxsize=8192)(_make_plan)
 
 
+_PLAN_OF: dict[int, tuple[object, _Plan]] = {}  # id of a species' cp tuple -> (it, plan)
+
+
 def _plan(cp) -> _Plan:
+    hit = _PLAN_OF.get(id(cp))
+    if hit is not None and hit[0] is cp:
+        return hit[1]
     try:
-        return _cached_plan(tuple(cp))
+        plan = _cached_plan(tuple(cp))
     except TypeError:  # a piece with unhashable fields: plan without the cache
         return _make_plan(tuple(cp))
+    if len(_PLAN_OF) > 65536:
+        _PLAN_OF.clear()
+    _PLAN_OF[id(cp)] = (cp, plan)  # holding cp keeps its id from being reused
+    return plan
 
 
 def _piecewise(plan: _Plan, T: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -220,6 +333,7 @@ _MEMO_POINTS = 512  # chart curves have CHART_POINTS (120) values; a memo past t
 def clear_memo() -> None:
     """Forget the results ``species_functions`` remembers (benchmarks time cold calls)."""
     _MEMO.clear()
+    _ANCHORS.clear()
 
 
 def species_functions(species: Species, T: np.ndarray | Sequence[float] | float
@@ -245,52 +359,202 @@ def species_functions(species: Species, T: np.ndarray | Sequence[float] | float
 
 def _species_functions(species: Species, T_in: np.ndarray) -> SpeciesFunctions:
     Tf = T_in.ravel()
-    if np.any(Tf <= 0.0):
-        raise ValueError("temperatures must be positive (K)")
-    dfH, u_dfH = standard_value(species, "dfH")
-    S298, u_S = standard_value(species, "S")
-    Cp298, _ = standard_value(species, "Cp")
-    at_ref = np.abs(Tf - T_REF) < T_REF_TOL
-
-    covered: tuple[float, float] | None = None
-    if species.cp:
-        basis = "cp-pieces"
-        plan = _plan(species.cp)
-        Cp, dH, dS = _piecewise(plan, Tf)
-        inside = np.zeros(Tf.shape, dtype=bool)
-        for p in plan.pieces:
-            inside |= (Tf >= p.Tmin) & (Tf <= p.Tmax)
-        extrapolated = ~inside & ~at_ref
-        covered = plan.covered
-    elif not np.isnan(Cp298):
-        basis = "constant-Cp"
-        Cp = np.full_like(Tf, Cp298)
-        dH = Cp298 * (Tf - T_REF) / 1000.0
-        dS = Cp298 * np.log(Tf / T_REF)
-        extrapolated = ~at_ref
-    else:
-        basis = "none"
-        Cp = np.full_like(Tf, NAN)
-        dH = np.where(at_ref, 0.0, NAN)
-        dS = np.where(at_ref, 0.0, NAN)
-        extrapolated = ~at_ref
-    dH = np.where(at_ref, 0.0, dH)
-    dS = np.where(at_ref, 0.0, dS)
-
-    H = dfH + dH
-    S = S298 + dS
-    G = H - Tf * S / 1000.0
-    gef = S - 1000.0 * dH / Tf
+    table = species_table((species,), Tf)
     shape = T_in.shape
 
     def arr(a: np.ndarray) -> np.ndarray:
-        return _readonly(np.array(a, dtype=a.dtype).reshape(shape))
+        return _readonly(np.array(a[0], dtype=a.dtype).reshape(shape))
 
+    dfH, u_dfH = standard_value(species, "dfH")
+    S298, u_S = standard_value(species, "S")
     return SpeciesFunctions(
-        T=arr(Tf), Cp=arr(Cp), H_minus_H298=arr(dH), H=arr(H), S=arr(S), G=arr(G),
-        gef=arr(gef), extrapolated=arr(extrapolated), covered=covered, basis=basis,
+        T=_readonly(np.array(Tf).reshape(shape)), Cp=arr(table.Cp),
+        H_minus_H298=arr(table.H_minus_H298), H=arr(table.H), S=arr(table.S),
+        G=arr(table.G), gef=arr(table.gef), extrapolated=arr(table.extrapolated),
+        covered=table.covered[0], basis=table.basis[0],
         dfH298=dfH, S298=S298, u_dfH=u_dfH, u_S=u_S,
     )
+
+
+@dataclass(frozen=True, eq=False)
+class SpeciesTable:
+    """Many species at the same temperatures: arrays of shape (species, T), units as in
+    SpeciesFunctions; ``covered`` and ``basis`` per species."""
+
+    T: np.ndarray
+    Cp: np.ndarray
+    H_minus_H298: np.ndarray
+    H: np.ndarray
+    S: np.ndarray
+    G: np.ndarray
+    gef: np.ndarray
+    extrapolated: np.ndarray
+    covered: tuple[tuple[float, float] | None, ...]
+    basis: tuple[str, ...]
+
+
+def _slices(switches: np.ndarray, T: np.ndarray, n_pieces: int) -> list:
+    """Per piece, the temperatures it governs: slices when T is sorted, masks otherwise."""
+    if T.size < 2 or bool(np.all(T[1:] >= T[:-1])):
+        cuts = [0, *np.searchsorted(T, switches, side="left").tolist(), T.size]
+        return [slice(a, b) for a, b in zip(cuts[:-1], cuts[1:], strict=True)]
+    idx = _governing(switches, T)
+    return [idx == i for i in range(n_pieces)]
+
+
+def _poly_rows(plans: Sequence[_Plan], T: np.ndarray, at, Cp: np.ndarray, dH: np.ndarray,
+               dS: np.ndarray, inside: np.ndarray) -> None:
+    """Cp, H - H298 (kJ/mol), S - S298 and the in-range flags of species whose pieces are
+    all polynomials and share one switch layout, evaluated together into rows ``at``."""
+    P = len(plans[0].pieces)
+    C = np.stack([p.poly for p in plans])  # (n, P, 7)
+    Ch = np.stack([p.poly_h for p in plans])
+    Cs = np.stack([p.poly_s for p in plans])
+    h_off = np.stack([p.poly_h_offset for p in plans])
+    s_off = np.stack([p.poly_s_offset for p in plans])
+    direct = isinstance(at, slice)
+    for j, sel in enumerate(_slices(plans[0].switches, T, P)):
+        Tj = T[sel]
+        if Tj.size == 0:
+            continue
+        if direct and isinstance(sel, slice):  # into the result arrays themselves
+            cp, h, s = Cp[at, sel], dH[at, sel], dS[at, sel]
+        else:
+            cp, h, s = (np.empty((len(plans), Tj.size)) for _ in range(3))
+        _poly_cp(C[:, j], Tj, cp)
+        _poly_h(Ch[:, j], Tj, h)
+        h += h_off[:, j, None]
+        _poly_s(Cs[:, j], Tj, s)
+        s += s_off[:, j, None]
+        if not (direct and isinstance(sel, slice)):
+            cell = np.ix_(at, sel) if isinstance(at, list) and not isinstance(sel, slice) \
+                else (at, sel)
+            Cp[cell], dH[cell], dS[cell] = cp, h, s
+    if all(p.contiguous for p in plans):  # one covered interval per species
+        lo = np.asarray([p.covered[0] for p in plans])[:, None]
+        hi = np.asarray([p.covered[1] for p in plans])[:, None]
+        inside[at] = (T >= lo) & (T <= hi)
+        return
+    bounds = np.stack([p.bounds for p in plans])  # (n, P, 2)
+    flags = np.zeros((len(plans), T.size), dtype=bool)
+    for j in range(P):
+        flags |= (T >= bounds[:, j, 0, None]) & (T <= bounds[:, j, 1, None])
+    inside[at] = flags
+
+
+def _other_row(species: Species, T: np.ndarray):
+    """Cp, H - H298, S - S298, in-range flags and basis of a species with a table piece, a
+    standard Cp only, or no Cp at all."""
+    if species.cp:
+        plan = _plan(species.cp)
+        Cp, dH, dS = _piecewise(plan, T)
+        inside = np.zeros(T.shape, dtype=bool)
+        for p in plan.pieces:
+            inside |= (T >= p.Tmin) & (T <= p.Tmax)
+        return Cp, dH, dS, inside, "cp-pieces"
+    Cp298, _ = standard_value(species, "Cp")
+    if not np.isnan(Cp298):
+        return (np.full_like(T, Cp298), Cp298 * (T - T_REF) / 1000.0,
+                Cp298 * np.log(T / T_REF), np.zeros(T.shape, dtype=bool), "constant-Cp")
+    nan = np.full_like(T, NAN)
+    return nan, nan, nan, np.zeros(T.shape, dtype=bool), "none"
+
+
+BLOCK_ROWS = 32  # species evaluated together: their arrays stay in the processor's cache
+THREADED_VALUES = 200_000  # species x temperatures from which species_table uses every core
+
+
+def _threads() -> int:
+    try:
+        return max(1, min(4, len(os.sched_getaffinity(0))))
+    except (AttributeError, OSError):
+        return max(1, min(4, os.cpu_count() or 1))
+_ANCHORS: dict[int, tuple[Species, float, float]] = {}  # id(species) -> (it, dfH, S298)
+
+
+def _anchor(sp: Species) -> tuple[float, float]:
+    """The preferred dfH and S at 298.15 K of ``sp`` (remembered per species object)."""
+    hit = _ANCHORS.get(id(sp))
+    if hit is not None and hit[0] is sp:
+        return hit[1], hit[2]
+    values = (standard_value(sp, "dfH")[0], standard_value(sp, "S")[0])
+    if len(_ANCHORS) > 65536:
+        _ANCHORS.clear()
+    _ANCHORS[id(sp)] = (sp, *values)
+    return values
+
+
+def species_table(species: Sequence[Species], T: np.ndarray | Sequence[float]
+                  ) -> SpeciesTable:
+    """Cp, H - H298, H, S, G and gef of every species in ``species`` at the 1-D ``T``.
+
+    Species whose pieces are all polynomials (constant, Shomate, NASA 7 and 9) are grouped
+    by their switch temperatures and each group is evaluated in one set of array
+    operations; the rest one by one.  Each value is computed by the same elementwise
+    operations in the same order whatever the batch, so a species' numbers are the same
+    evaluated alone or with a thousand others (species_functions is this with one)."""
+    Tf = np.asarray(T, dtype=float).ravel()
+    if np.any(Tf <= 0.0):
+        raise ValueError("temperatures must be positive (K)")
+    n = len(species)
+    Cp, dH, dS = (np.empty((n, Tf.size)) for _ in range(3))
+    inside = np.empty((n, Tf.size), dtype=bool)
+    basis: list[str] = ["cp-pieces"] * n
+    covered: list[tuple[float, float] | None] = [None] * n
+    groups: dict[tuple, list[int]] = {}
+    plans: list[_Plan | None] = []
+    for i, sp in enumerate(species):
+        plan = _plan(sp.cp) if sp.cp else None
+        plans.append(plan)
+        if plan is not None:
+            covered[i] = plan.covered
+        if plan is not None and plan.poly is not None:
+            groups.setdefault((len(plan.pieces), plan.switches.tobytes()), []).append(i)
+        else:
+            Cp[i], dH[i], dS[i], inside[i], basis[i] = _other_row(sp, Tf)
+    blocks = []
+    for rows in groups.values():
+        for b in range(0, len(rows), BLOCK_ROWS):
+            block = rows[b:b + BLOCK_ROWS]
+            at = slice(block[0], block[-1] + 1)
+            if block != list(range(block[0], block[-1] + 1)):
+                at = block  # rows not contiguous: fancy indexing
+            blocks.append(([plans[i] for i in block], at))
+    at_ref = np.abs(Tf - T_REF) < T_REF_TOL
+    anchors = np.asarray([_anchor(sp) for sp in species], dtype=float).reshape(n, 2)
+    dfH, S298 = anchors[:, :1], anchors[:, 1:]
+    H, S, G, gef = (np.empty((n, Tf.size)) for _ in range(4))
+    T_kilo, per_T = Tf / 1000.0, 1000.0 / Tf  # G = H - T S / 1000, gef = S - 1000 dH / T
+    extrapolated = np.empty((n, Tf.size), dtype=bool)
+
+    def poly_part(part) -> None:
+        for block_plans, at in part:
+            _poly_rows(block_plans, Tf, at, Cp, dH, dS, inside)
+
+    def assemble(starts) -> None:
+        for b in starts:  # blocks that stay in cache; the same operations for every block
+            r = slice(b, b + BLOCK_ROWS)
+            dH[r, at_ref] = 0.0
+            dS[r, at_ref] = 0.0
+            np.logical_and(~inside[r], ~at_ref, out=extrapolated[r])
+            np.add(dfH[r], dH[r], out=H[r])
+            np.add(S298[r], dS[r], out=S[r])
+            np.subtract(H[r], S[r] * T_kilo, out=G[r])
+            np.subtract(S[r], dH[r] * per_T, out=gef[r])
+
+    starts = list(range(0, n, BLOCK_ROWS))
+    threads = _threads() if n * Tf.size >= THREADED_VALUES else 1
+    if threads < 2:
+        poly_part(blocks)
+        assemble(starts)
+    else:  # numpy lets go of the GIL inside each operation; the blocks are disjoint rows
+        from concurrent.futures import ThreadPoolExecutor
+
+        with ThreadPoolExecutor(threads) as pool:  # joined before returning (fork-safe)
+            list(pool.map(poly_part, [blocks[i::threads] for i in range(threads)]))
+            list(pool.map(assemble, [starts[i::threads] for i in range(threads)]))
+    return SpeciesTable(T=Tf, Cp=Cp, H_minus_H298=dH, H=H, S=S, G=G, gef=gef,
+                        extrapolated=extrapolated, covered=tuple(covered), basis=tuple(basis))
 
 
 @dataclass(frozen=True, eq=False)
@@ -374,6 +638,8 @@ __all__ = [
     "SpeciesFunctions",
     "FormationFunctions",
     "species_functions",
+    "species_table",
+    "SpeciesTable",
     "formation_functions",
     "formation_coefficients",
     "standard_value",
