@@ -101,15 +101,26 @@ def chart_grid(lo: float, hi: float) -> np.ndarray:
     return np.linspace(lo, hi, CHART_POINTS)
 
 
-def _atoms(sp: Species, handbook: Handbook) -> tuple[tuple[str, str, float], ...] | None:
+def atom_species(handbook: Handbook) -> dict[str, Species]:
+    """The first neutral gaseous monatomic species of each element, in file order."""
+    out: dict[str, Species] = {}
+    for s in handbook.species.values():
+        if s.phase == "g" and s.charge == 0 and len(s.elements) == 1 and s.elements[0][1] == 1:
+            out.setdefault(s.elements[0][0], s)
+    return out
+
+
+def _atoms(sp: Species, handbook: Handbook, atoms_of: Mapping[str, Species] | None = None
+           ) -> tuple[tuple[str, str, float], ...] | None:
     """Gaseous-atom species for each element of ``sp``, or None if one is missing (or
     ``sp`` is an ion: taking it apart into neutral atoms does not balance its charge)."""
     if sp.charge:
         return None
+    if atoms_of is None:
+        atoms_of = atom_species(handbook)
     out = []
     for el, n in sp.elements:
-        atom = next((s for s in handbook.species.values() if s.phase == "g" and s.charge == 0
-                     and s.elements == ((el, 1),)), None)
+        atom = atoms_of.get(el)
         if atom is None or atom.id == sp.id:
             return None
         out.append((el, atom.id, float(n)))
@@ -156,9 +167,10 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None) -> Comput
             users.setdefault(sid, []).append(rid)
 
     species: dict[str, SpeciesResult] = {}
+    atoms_of = atom_species(hb)
     for sid, sp in hb.species.items():
         fine = chart_grid(sp.Tmin, sp.Tmax) if sp.cp else np.array([T_REF])
-        atoms = _atoms(sp, hb)
+        atoms = _atoms(sp, hb, atoms_of)
         species[sid] = SpeciesResult(
             species=sp,
             grid=species_functions(sp, grid),

@@ -53,10 +53,29 @@ def _normalise(unit: str) -> str:
     return u.replace("**", "*").replace("*/", "/").replace("/*", "/")
 
 
+# The spellings most handbooks use, with the factors pint gives for them (a test holds the
+# two equal), so a handbook written in them never pays for building pint's registry.
+COMMON = {
+    "energy": {"kJ/mol": 1.0, "J/mol": 0.001, "kcal/mol": 4.184, "cal/mol": 0.004184},
+    "entropy": {"J/(mol*K)": 1.0, "J/mol/K": 1.0, "J/(mol K)": 1.0, "J mol-1 K-1": 1.0,
+                "J K-1 mol-1": 1.0, "cal/(mol*K)": 4.184, "cal/mol/K": 4.184},
+    "pressure": {"Pa": 1.0, "kPa": 1000.0, "MPa": 1000000.0, "bar": 100000.0,
+                 "atm": 101325.0},
+}
+
+
 @functools.lru_cache(maxsize=256)
 def to_canonical_factor(unit: str, dimension: str) -> float:
     """Factor that converts a value written in ``unit`` to the canonical unit of
     ``dimension`` (energy, entropy, pressure); raises UnitError with a hint."""
+    common = COMMON.get(dimension, {}).get(unit.strip())
+    if common is not None:
+        return common
+    return _pint_factor(unit, dimension)
+
+
+def _pint_factor(unit: str, dimension: str) -> float:
+    """to_canonical_factor by pint's dimension algebra."""
     if dimension == "none":
         if unit.strip() in ("", "1", "dimensionless"):
             return 1.0

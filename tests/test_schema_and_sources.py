@@ -7,6 +7,7 @@ import json
 from pathlib import Path
 
 import jsonschema
+import pytest
 import yaml
 
 from conftest import REPO, assemble
@@ -100,6 +101,17 @@ def test_bibtex_entries_become_references(tmp_path: Path):
 def test_demo_reads_its_bib_file():
     handbook, _ = load_handbook(DEMO)
     assert any(r.origin == "bib" for r in handbook.references.values())
+
+
+def test_common_unit_spellings_convert_as_pint_converts_them():
+    from generator import units
+
+    for dimension, table in units.COMMON.items():
+        for unit, factor in table.items():
+            assert units._pint_factor(unit, dimension) == factor, (unit, dimension)
+    # the common table is not a way around the dimension check
+    with pytest.raises(UnitError):
+        to_canonical_factor("bar", "energy")
 
 
 def test_units_convert_and_refuse_wrong_dimensions():

@@ -22,7 +22,7 @@ import numpy as np
 
 from generator.model import Species
 from generator.thermo.constants import LN10, F, R
-from generator.thermo.species_props import species_functions, u_linear
+from generator.thermo.species_props import species_table, standard_value, u_linear
 
 CROSSOVER_GRID = 400  # evaluation points over the covered range before refinement
 CROSSOVER_TOL_K = 1e-6
@@ -89,15 +89,17 @@ def reaction_functions(nu: Mapping[str, float], species: Mapping[str, Species],
     drCp = np.zeros_like(Tf)
     extrap = np.zeros(Tf.shape, dtype=bool)
     nus, u_H, u_S = [], [], []
-    for sid, n in sorted(nu.items()):
-        f = species_functions(species[sid], Tf)
-        drH = drH + n * f.H
-        drS = drS + n * f.S
-        drCp = drCp + n * f.Cp
-        extrap |= np.asarray(f.extrapolated, dtype=bool)
+    terms = sorted(nu.items())
+    table = species_table([species[sid] for sid, _n in terms], Tf.ravel())
+    for i, (sid, n) in enumerate(terms):
+        drH = drH + n * table.H[i].reshape(Tf.shape)
+        drS = drS + n * table.S[i].reshape(Tf.shape)
+        drCp = drCp + n * table.Cp[i].reshape(Tf.shape)
+        extrap |= table.extrapolated[i].reshape(Tf.shape)
         nus.append(n)
-        u_H.append(0.0 if _exact_zero_dfH(species[sid]) else f.u_dfH)
-        u_S.append(f.u_S)
+        u_dfH = standard_value(species[sid], "dfH")[1]
+        u_H.append(0.0 if _exact_zero_dfH(species[sid]) else u_dfH)
+        u_S.append(standard_value(species[sid], "S")[1])
     drG = drH - Tf * drS / 1000.0
     with np.errstate(over="ignore"):
         log10K = -1000.0 * drG / (R * Tf * LN10)

@@ -166,10 +166,9 @@ class _Plan:
     s_offset: tuple[float, ...]
     covered: tuple[float, float]
     poly: np.ndarray | None = None  # (pieces, 7) Cp coefficients on POWERS, J/(mol K)
-    poly_h: np.ndarray | None = None  # (pieces, 7) H antiderivative coefficients (poly_forms)
-    poly_s: np.ndarray | None = None  # (pieces, 7) S antiderivative coefficients
-    poly_h_offset: np.ndarray | None = None  # (pieces,) kJ/mol, joining _poly_h at 298.15 K
-    poly_s_offset: np.ndarray | None = None  # (pieces,) J/(mol K), joining _poly_s
+    coef: np.ndarray | None = None  # (pieces, 3, 7): Cp, H and S forms (poly_forms)
+    offset: np.ndarray | None = None  # (pieces, 2): kJ/mol and J/(mol K) joining H and S
+    negative_powers: bool = False  # some piece has terms in 1/T or 1/T^2
     bounds: np.ndarray | None = None  # (pieces, 2): each piece's Tmin, Tmax
     contiguous: bool = False  # the pieces leave no gap: covered is the one range they span
 
@@ -221,31 +220,31 @@ def _horner(c: np.ndarray, T: np.ndarray, out: np.ndarray, first: int) -> np.nda
     return out
 
 
-def _poly_cp(c: np.ndarray, T: np.ndarray, out: np.ndarray) -> np.ndarray:
+def _poly_cp(c: np.ndarray, T: np.ndarray, out: np.ndarray, neg: bool = True) -> np.ndarray:
     """Cp = c_-2/T^2 + c_-1/T + c_0 + T (c_1 + T (c_2 + T (c_3 + T c_4))) into ``out``
     (rows, points).  In-place elementwise operations in a fixed order, so a species'
     values do not depend on the batch it is evaluated in."""
     _horner(c, T, out, 2)
-    if np.any(c[:, :2]):
+    if neg:  # terms in 1/T and 1/T^2 (Shomate, NASA 9); adding zeros would change nothing
         out += (c[:, 0, None] / T + c[:, 1, None]) / T
     return out
 
 
-def _poly_h(h: np.ndarray, T: np.ndarray, out: np.ndarray) -> np.ndarray:
+def _poly_h(h: np.ndarray, T: np.ndarray, out: np.ndarray, neg: bool = True) -> np.ndarray:
     """H antiderivative (kJ/mol) from the h coefficients of poly_forms, into ``out``."""
     _horner(h, T, out, 2)
     out *= T
-    if np.any(h[:, :2]):
+    if neg:
         out += h[:, 0, None] / T + h[:, 1, None] * np.log(T)
     return out
 
 
-def _poly_s(s: np.ndarray, T: np.ndarray, out: np.ndarray) -> np.ndarray:
+def _poly_s(s: np.ndarray, T: np.ndarray, out: np.ndarray, neg: bool = True) -> np.ndarray:
     """S antiderivative (J/(mol K)) from the s coefficients of poly_forms, into ``out``."""
     _horner(s, T, out, 3)
     out *= T
     out += s[:, 2, None] * np.log(T)
-    if np.any(s[:, :2]):
+    if neg:
         out += (s[:, 0, None] / T + s[:, 1, None]) / T
     return out
 
@@ -262,18 +261,20 @@ def _make_plan(cp: tuple[CpPiece, ...]) -> _Plan:
     pieces, switches = _layout(cp)
     models = tuple(cp_models._model(p) for p in pieces)
     polys = [poly_coefficients(p) for p in pieces]
-    poly = h_off = s_off = h_form = s_form = None
+    poly = coef = offset = None
     if all(c is not None for c in polys):
         poly = np.stack(polys)
         h_form, s_form = poly_forms(poly)
-        h_off = np.asarray(_offsets(pieces, switches, _poly_anti(_poly_h, 0)))
-        s_off = np.asarray(_offsets(pieces, switches, _poly_anti(_poly_s, 1)))
+        coef = np.stack([poly, h_form, s_form], axis=1)
+        offset = np.stack([_offsets(pieces, switches, _poly_anti(_poly_h, 0)),
+                           _offsets(pieces, switches, _poly_anti(_poly_s, 1))], axis=1)
     return _Plan(
         pieces=tuple(pieces), switches=switches, models=models,
         h_offset=tuple(_offsets(pieces, switches, cp_models.h_antiderivative)),
         s_offset=tuple(_offsets(pieces, switches, cp_models.s_antiderivative)),
         covered=(min(p.Tmin for p in pieces), max(p.Tmax for p in pieces)),
-        poly=poly, poly_h=h_form, poly_s=s_form, poly_h_offset=h_off, poly_s_offset=s_off,
+        poly=poly, coef=coef, offset=offset,
+        negative_powers=poly is not None and bool(np.any(poly[:, :2])),
         bounds=np.asarray([(p.Tmin, p.Tmax) for p in pieces], dtype=float),
         contiguous=all(hi.Tmin <= max(q.Tmax for q in pieces[:i + 1])
                        for i, hi in enumerate(pieces[1:])),
@@ -402,43 +403,44 @@ def _slices(switches: np.ndarray, T: np.ndarray, n_pieces: int) -> list:
     return [idx == i for i in range(n_pieces)]
 
 
-def _poly_rows(plans: Sequence[_Plan], T: np.ndarray, at, Cp: np.ndarray, dH: np.ndarray,
-               dS: np.ndarray, inside: np.ndarray) -> None:
+def _poly_rows(plans: Sequence[_Plan], T: np.ndarray, parts: list, at, Cp: np.ndarray,
+               dH: np.ndarray, dS: np.ndarray, inside: np.ndarray) -> None:
     """Cp, H - H298 (kJ/mol), S - S298 and the in-range flags of species whose pieces are
-    all polynomials and share one switch layout, evaluated together into rows ``at``."""
-    P = len(plans[0].pieces)
-    C = np.stack([p.poly for p in plans])  # (n, P, 7)
-    Ch = np.stack([p.poly_h for p in plans])
-    Cs = np.stack([p.poly_s for p in plans])
-    h_off = np.stack([p.poly_h_offset for p in plans])
-    s_off = np.stack([p.poly_s_offset for p in plans])
+    all polynomials and share one switch layout (``parts``: each piece's temperatures, from
+    _slices), evaluated together into rows ``at``."""
+    if len(plans) == 1:
+        coef, offset = plans[0].coef[None], plans[0].offset[None]
+    else:
+        coef = np.stack([p.coef for p in plans])  # (n, P, 3, 7): Cp, H and S forms
+        offset = np.stack([p.offset for p in plans])  # (n, P, 2): H and S offsets
+    neg = any(p.negative_powers for p in plans)
     direct = isinstance(at, slice)
-    for j, sel in enumerate(_slices(plans[0].switches, T, P)):
+    for j, sel in enumerate(parts):
         Tj = T[sel]
         if Tj.size == 0:
             continue
-        if direct and isinstance(sel, slice):  # into the result arrays themselves
+        into = direct and isinstance(sel, slice)
+        if into:  # into the result arrays themselves
             cp, h, s = Cp[at, sel], dH[at, sel], dS[at, sel]
         else:
             cp, h, s = (np.empty((len(plans), Tj.size)) for _ in range(3))
-        _poly_cp(C[:, j], Tj, cp)
-        _poly_h(Ch[:, j], Tj, h)
-        h += h_off[:, j, None]
-        _poly_s(Cs[:, j], Tj, s)
-        s += s_off[:, j, None]
-        if not (direct and isinstance(sel, slice)):
+        _poly_cp(coef[:, j, 0], Tj, cp, neg)
+        _poly_h(coef[:, j, 1], Tj, h, neg)
+        h += offset[:, j, 0, None]
+        _poly_s(coef[:, j, 2], Tj, s, neg)
+        s += offset[:, j, 1, None]
+        if not into:
             cell = np.ix_(at, sel) if isinstance(at, list) and not isinstance(sel, slice) \
                 else (at, sel)
             Cp[cell], dH[cell], dS[cell] = cp, h, s
     if all(p.contiguous for p in plans):  # one covered interval per species
-        lo = np.asarray([p.covered[0] for p in plans])[:, None]
-        hi = np.asarray([p.covered[1] for p in plans])[:, None]
-        inside[at] = (T >= lo) & (T <= hi)
+        span = np.asarray([p.covered for p in plans])
+        inside[at] = (T >= span[:, :1]) & (T <= span[:, 1:])
         return
-    bounds = np.stack([p.bounds for p in plans])  # (n, P, 2)
     flags = np.zeros((len(plans), T.size), dtype=bool)
-    for j in range(P):
-        flags |= (T >= bounds[:, j, 0, None]) & (T <= bounds[:, j, 1, None])
+    for p_i, plan in enumerate(plans):
+        for lo, hi in plan.bounds:
+            flags[p_i] |= (T >= lo) & (T <= hi)
     inside[at] = flags
 
 
@@ -514,12 +516,14 @@ def species_table(species: Sequence[Species], T: np.ndarray | Sequence[float]
             Cp[i], dH[i], dS[i], inside[i], basis[i] = _other_row(sp, Tf)
     blocks = []
     for rows in groups.values():
+        first = plans[rows[0]]
+        parts = _slices(first.switches, Tf, len(first.pieces))
         for b in range(0, len(rows), BLOCK_ROWS):
             block = rows[b:b + BLOCK_ROWS]
             at = slice(block[0], block[-1] + 1)
-            if block != list(range(block[0], block[-1] + 1)):
+            if block[-1] - block[0] + 1 != len(block):
                 at = block  # rows not contiguous: fancy indexing
-            blocks.append(([plans[i] for i in block], at))
+            blocks.append(([plans[i] for i in block], parts, at))
     at_ref = np.abs(Tf - T_REF) < T_REF_TOL
     anchors = np.asarray([_anchor(sp) for sp in species], dtype=float).reshape(n, 2)
     dfH, S298 = anchors[:, :1], anchors[:, 1:]
@@ -528,8 +532,8 @@ def species_table(species: Sequence[Species], T: np.ndarray | Sequence[float]
     extrapolated = np.empty((n, Tf.size), dtype=bool)
 
     def poly_part(part) -> None:
-        for block_plans, at in part:
-            _poly_rows(block_plans, Tf, at, Cp, dH, dS, inside)
+        for block_plans, parts, at in part:
+            _poly_rows(block_plans, Tf, parts, at, Cp, dH, dS, inside)
 
     def assemble(starts) -> None:
         for b in starts:  # blocks that stay in cache; the same operations for every block
