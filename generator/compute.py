@@ -17,6 +17,7 @@ import numpy as np
 
 from generator.diagnostics import Finding
 from generator.model import Handbook, Reaction, Species
+from generator.parallel import fork_map
 from generator.thermo.constants import T_REF
 from generator.thermo.reactions import (
     ReactionFunctions,
@@ -151,9 +152,36 @@ def evaluate_reaction(nu: Mapping[str, float], species: Mapping[str, Species],
     return on_grid, curve, crossings
 
 
-def compute_handbook(handbook: Handbook, today: dt.date | None = None) -> Computed:
+PARALLEL_MIN_REACTIONS = 200  # fewer reactions than this are computed in one process
+
+
+def _reaction_result(shared: tuple[Handbook, np.ndarray], rid: str) -> ReactionResult:
+    """Grid values, chart curve, crossovers, Hess sum and character of one reaction."""
+    hb, grid = shared
+    rx = hb.reactions[rid]
+    nu = rx.stoichiometry
+    on_grid, curve, crossings = evaluate_reaction(nu, hb.species, grid, rx.electrons)
+    hess_total = None
+    if rx.combine:
+        parts = [(s.factor, reaction_functions(hb.reactions[s.reaction].stoichiometry,
+                                               hb.species, grid)) for s in rx.combine]
+        hess_total = hess_sum(parts)
+    at298 = reaction_functions(nu, hb.species, [T_REF])
+    return ReactionResult(
+        reaction=rx, nu=nu, grid=on_grid, curve=curve, crossover_T=crossings,
+        character=character(float(at298.drH[0]), float(at298.drS[0]), float(at298.drG[0])),
+        steps=tuple((s.factor, s.reaction) for s in rx.combine),
+        hess_total=hess_total,
+        checks=(),
+    )
+
+
+def compute_handbook(handbook: Handbook, today: dt.date | None = None, jobs: int = 1
+                     ) -> Computed:
     """Everything the handbook publishes; review ages are counted to ``today`` (default:
-    ``provenance.today_from_environment``, SOURCE_DATE_EPOCH or the current date)."""
+    ``provenance.today_from_environment``, SOURCE_DATE_EPOCH or the current date).  With
+    ``jobs`` > 1 the reactions are computed by that many forked processes (the same
+    numbers: each reaction is a pure function of its species)."""
     from generator.findings import engine_checks
     from generator.network import network_findings, solve_network
     from generator.provenance import provenance, today_from_environment
@@ -181,24 +209,9 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None) -> Comput
             atoms=atoms or (),
         )
 
-    reactions: dict[str, ReactionResult] = {}
-    for rid, rx in hb.reactions.items():
-        nu = rx.stoichiometry
-        on_grid, curve, crossings = evaluate_reaction(nu, hb.species, grid, rx.electrons)
-        hess_total = None
-        if rx.combine:
-            parts = [(s.factor, reaction_functions(hb.reactions[s.reaction].stoichiometry,
-                                                   hb.species, grid)) for s in rx.combine]
-            hess_total = hess_sum(parts)
-        at298 = reaction_functions(nu, hb.species, [T_REF])
-        reactions[rid] = ReactionResult(
-            reaction=rx, nu=nu, grid=on_grid, curve=curve, crossover_T=crossings,
-            character=character(float(at298.drH[0]), float(at298.drS[0]),
-                                float(at298.drG[0])),
-            steps=tuple((s.factor, s.reaction) for s in rx.combine),
-            hess_total=hess_total,
-            checks=(),
-        )
+    ids = list(hb.reactions)
+    results, _ = fork_map(_reaction_result, ids, jobs, (hb, grid), PARALLEL_MIN_REACTIONS)
+    reactions: dict[str, ReactionResult] = dict(zip(ids, results, strict=True))
     computed = Computed(hb, element_refs, species, reactions, ())
     checks, findings = engine_checks(computed)
     reactions = {rid: _with_checks(r, checks.get(rid, ())) for rid, r in reactions.items()}
@@ -211,7 +224,7 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None) -> Comput
 
     computed = Computed(hb, element_refs, species, reactions, tuple(ref_findings + findings),
                         provenance=prov, network=network)
-    return replace(computed, design=compute_design(computed))
+    return replace(computed, design=compute_design(computed, jobs))
 
 
 def _with_checks(r: ReactionResult, checks) -> ReactionResult:

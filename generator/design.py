@@ -382,10 +382,22 @@ class Design:
     ladders: Mapping[str, tuple[LadderPoint, ...]]
 
 
-def compute_design(computed: Computed) -> Design:
-    """The design reference of a computed handbook, once per build."""
+PARALLEL_MIN_REACTIONS = 200  # fewer reactions than this are designed in one process
+
+
+def _reaction_design(computed: Computed, rid: str) -> DesignResult:
+    return reaction_design(computed.reactions[rid], computed)
+
+
+def compute_design(computed: Computed, jobs: int = 1) -> Design:
+    """The design reference of a computed handbook, once per build (the reactions' part
+    split over ``jobs`` forked processes; generator.parallel)."""
+    from generator.parallel import fork_map
+
+    ids = list(computed.reactions)
+    results, _ = fork_map(_reaction_design, ids, jobs, computed, PARALLEL_MIN_REACTIONS)
     return Design(
-        reactions={rid: reaction_design(rr, computed) for rid, rr in computed.reactions.items()},
+        reactions=dict(zip(ids, results, strict=True)),
         families={name: family_curves(computed, name) for name in family_names(computed)},
         ladders={el: tuple(ladder_points(computed, el)) for el in element_symbols(computed)})
 

@@ -20,15 +20,17 @@ if TYPE_CHECKING:
     from generator.compute import Computed
 
 
-def load_and_compute(root: Path) -> tuple[Handbook | None, Computed | None, list[Finding]]:
-    """Load and validate the sources, then compute them and run the consistency checks;
-    the findings of both steps together (no computation when loading failed)."""
+def load_and_compute(root: Path, jobs: int = 1
+                     ) -> tuple[Handbook | None, Computed | None, list[Finding]]:
+    """Load and validate the sources, then compute them (``jobs`` processes) and run the
+    consistency checks; the findings of both steps together (no computation when loading
+    failed)."""
     handbook, findings = load_handbook(root)
     if handbook is None:
         return None, None, findings
     from generator.compute import compute_handbook
 
-    computed = compute_handbook(handbook)
+    computed = compute_handbook(handbook, jobs=jobs)
     return handbook, computed, findings + list(computed.findings)
 
 

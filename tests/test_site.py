@@ -323,14 +323,19 @@ def test_two_builds_are_byte_identical(site: Path, tmp_path: Path, monkeypatch) 
 
 def test_sheets_rendered_by_worker_processes_are_byte_identical(site: Path, tmp_path: Path,
                                                                monkeypatch) -> None:
-    """The demo has fewer items than the parallel threshold; forcing the workers on must not
-    change a byte (the module fixture built it in one process)."""
+    """The demo has fewer items than the parallel thresholds; forcing the workers on for the
+    reactions, their design numbers and the sheets must not change a byte (the module
+    fixture built it in one process)."""
     import multiprocessing
 
     if "fork" not in multiprocessing.get_all_start_methods():
         pytest.skip("the platform cannot fork; sheets are always rendered in one process")
     monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
+    from generator import compute, design
+
     monkeypatch.setattr(publish_mod, "PARALLEL_MIN_ITEMS", 1)
+    monkeypatch.setattr(compute, "PARALLEL_MIN_REACTIONS", 1)
+    monkeypatch.setattr(design, "PARALLEL_MIN_REACTIONS", 1)
     import os
 
     pids = tmp_path / "pids"

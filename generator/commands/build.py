@@ -67,9 +67,11 @@ def build_site(sources: Path, output: Path, quiet: bool = False,
         if record is not None:
             _report_up_to_date(record, output, quiet, start)
             return 0
+    from generator.parallel import default_jobs
     from generator.pipeline import load_and_compute
 
-    handbook, computed, findings = load_and_compute(sources)
+    jobs = int(getattr(args, "jobs", 0) or default_jobs())
+    handbook, computed, findings = load_and_compute(sources, jobs)
     findings = sort_findings(findings)
     for f in findings:
         if not quiet or f.severity is Severity.ERROR:

@@ -18,6 +18,7 @@ from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
 
+from generator import parallel
 from generator.caution import CAUTION
 from generator.compute import Computed, compute_handbook
 from generator.diagnostics import Finding, Severity
@@ -390,36 +391,22 @@ def render_items(computed: Computed, findings: Sequence[Finding], meta: pages.Si
     return ItemBatch(files, [p.path for p in sheets], specs, digests, texts)
 
 
-_SHARED: tuple | None = None  # what forked workers render from, set just before the fork
-
-
-def _render_chunk(keys: Sequence[str]) -> ItemBatch:
-    assert _SHARED is not None
-    return render_items(*_SHARED, keys)
+def _render_chunk(shared: tuple, keys: Sequence[str]) -> ItemBatch:
+    return render_items(*shared, keys)
 
 
 def render_all_items(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
                      jobs: int, meanwhile=None) -> tuple[ItemBatch, object]:
-    """Every item's sheet: split over ``jobs`` forked workers, which inherit the computed
-    handbook instead of receiving it, when there are enough items and the platform forks.
-    ``meanwhile()`` runs in this process while the workers render; its result is returned."""
-    global _SHARED
-    import multiprocessing
-
+    """Every item's sheet, split over ``jobs`` forked workers (generator.parallel) when there
+    are at least PARALLEL_MIN_ITEMS items.  ``meanwhile()`` runs in this process while the
+    workers render; its result is returned."""
     keys = pages.item_keys(computed)
-    if jobs < 2 or len(keys) < PARALLEL_MIN_ITEMS or \
-            "fork" not in multiprocessing.get_all_start_methods():
-        batch = render_items(computed, findings, meta, keys)
-        return batch, meanwhile() if meanwhile else None
-    chunks = [keys[i::2 * jobs] for i in range(2 * jobs)]
-    _SHARED = (computed, findings, meta)
-    try:
-        with multiprocessing.get_context("fork").Pool(jobs) as pool:
-            pending = pool.map_async(_render_chunk, chunks)
-            extra = meanwhile() if meanwhile else None
-            batches = pending.get()
-    finally:
-        _SHARED = None
+    n = 2 * jobs if jobs > 1 and len(keys) >= PARALLEL_MIN_ITEMS else 1
+    chunks = [keys[i::n] for i in range(n)]
+    batches, extra = parallel.fork_map(_render_chunk, chunks, jobs,
+                                       (computed, findings, meta), 2, meanwhile)
+    if len(batches) == 1:
+        return batches[0], extra
     merged = ItemBatch({}, [], {}, {}, {})
     for b in batches:
         merged.files.update(b.files)
@@ -431,11 +418,8 @@ def render_all_items(computed: Computed, findings: Sequence[Finding], meta: page
 
 
 def default_jobs() -> int:
-    """Worker processes for drawing: the cores this process may use."""
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except (AttributeError, OSError):
-        return max(1, os.cpu_count() or 1)
+    """Worker processes for drawing and rendering: the cores this process may use."""
+    return parallel.default_jobs()
 
 
 def chart_cache_for(args, root: Path) -> ChartCache | None:

@@ -1,0 +1,62 @@
+"""Work split over forked worker processes that inherit what they work on.
+
+``fork_map(fn, items, jobs, shared)`` is ``[fn(shared, item) for item in items]``, computed
+in ``jobs`` forked processes when there are at least ``min_items`` items and the platform
+forks.  The workers inherit ``shared`` (a computed handbook, say) through the fork instead of
+receiving it pickled; only the items go out and the results come back.  Results are in the
+order of ``items`` whatever the split, and ``fn`` must be a pure function, so the output is
+the same with one process or many.
+"""
+
+from __future__ import annotations
+
+import multiprocessing
+import os
+from collections.abc import Callable, Sequence
+from typing import Any
+
+_TASK: tuple[Callable, Any] | None = None  # (fn, shared), set just before the fork
+
+
+def default_jobs() -> int:
+    """The cores this process may use."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):
+        return max(1, os.cpu_count() or 1)
+
+
+def can_fork() -> bool:
+    return "fork" in multiprocessing.get_all_start_methods()
+
+
+def _run_chunk(items: Sequence) -> list:
+    assert _TASK is not None
+    fn, shared = _TASK
+    return [fn(shared, item) for item in items]
+
+
+def fork_map(fn: Callable[[Any, Any], Any], items: Sequence, jobs: int, shared: Any = None,
+             min_items: int = 2, meanwhile: Callable[[], Any] | None = None
+             ) -> tuple[list, Any]:
+    """``([fn(shared, x) for x in items], meanwhile())``; ``meanwhile`` runs in this process
+    while the workers work (its result is returned beside theirs)."""
+    global _TASK
+    items = list(items)
+    if jobs < 2 or len(items) < min_items or not can_fork():
+        results = [fn(shared, x) for x in items]
+        return results, meanwhile() if meanwhile else None
+    n_chunks = min(len(items), 4 * jobs)
+    chunks = [items[i::n_chunks] for i in range(n_chunks)]  # interleaved: even loads
+    _TASK = (fn, shared)
+    try:
+        with multiprocessing.get_context("fork").Pool(jobs) as pool:
+            pending = pool.map_async(_run_chunk, chunks)
+            extra = meanwhile() if meanwhile else None
+            parts = pending.get()
+    finally:
+        _TASK = None
+    results: list = [None] * len(items)
+    for i, part in enumerate(parts):
+        results[i::n_chunks] = part
+    return results, extra

@@ -1,0 +1,41 @@
+"""fork_map: the same results in the same order with one process or several."""
+
+from __future__ import annotations
+
+import os
+
+import pytest
+
+from generator import parallel
+
+
+def _square_and_pid(shared, x):
+    return shared * x * x, os.getpid()
+
+
+def test_results_keep_the_order_of_the_items_whatever_the_split():
+    items = list(range(23))
+    one, _ = parallel.fork_map(_square_and_pid, items, 1, 3)
+    many, extra = parallel.fork_map(_square_and_pid, items, 3, 3, meanwhile=lambda: "here")
+    assert [r for r, _pid in one] == [3 * x * x for x in items]
+    assert [r for r, _pid in many] == [r for r, _pid in one]
+    assert extra == "here"
+    if parallel.can_fork():
+        assert os.getpid() not in {pid for _r, pid in many}  # really done elsewhere
+    assert {pid for _r, pid in one} == {os.getpid()}
+
+
+def test_below_the_threshold_everything_stays_in_this_process():
+    results, _ = parallel.fork_map(_square_and_pid, [1, 2], 4, 1, min_items=5)
+    assert {pid for _r, pid in results} == {os.getpid()}
+
+
+def _fails(_shared, x):
+    if x == 3:
+        raise ValueError("three")
+    return x
+
+
+def test_a_failure_in_a_worker_reaches_the_caller():
+    with pytest.raises(ValueError, match="three"):
+        parallel.fork_map(_fails, range(8), 2)
