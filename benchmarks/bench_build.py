@@ -37,22 +37,33 @@ SUMMARY = re.compile(r"(\d+) pages, (\d+) charts \((\d+) drawn, (\d+) cached.*?\
                      r"(\d+) files rewritten")
 
 
-def _tree_rss(pid: int) -> int:
-    """Resident memory (bytes) of ``pid`` and all its descendants, from /proc."""
-    total, todo = 0, [pid]
+def _tree_memory(pid: int) -> tuple[int, int]:
+    """(RSS, PSS) in bytes of ``pid`` and all its descendants, from /proc.  Forked workers
+    share the parent's pages, which the RSS sum counts once per process; the proportional
+    set size (PSS) splits each shared page among its sharers, so its sum is the memory the
+    build really holds."""
+    rss = pss = 0
+    todo = [pid]
     while todo:
         p = todo.pop()
         try:
             with open(f"/proc/{p}/status") as fh:
                 for line in fh:
                     if line.startswith("VmRSS:"):
-                        total += int(line.split()[1]) * 1024
+                        rss += int(line.split()[1]) * 1024
+            try:
+                with open(f"/proc/{p}/smaps_rollup") as fh:
+                    for line in fh:
+                        if line.startswith("Pss:"):
+                            pss += int(line.split()[1]) * 1024
+            except OSError:
+                pass
             for task in os.listdir(f"/proc/{p}/task"):
                 with open(f"/proc/{p}/task/{task}/children") as fh:
                     todo.extend(int(c) for c in fh.read().split())
         except (OSError, ValueError):
             continue
-    return total
+    return rss, pss
 
 
 STUB = """
@@ -79,14 +90,15 @@ def run_build(src: Path, out: Path, cache: Path | None, jobs: int, stub: bool = 
     cmd += ["--cache", str(cache)] if cache else ["--no-cache"]
     env = {**os.environ, "SOURCE_DATE_EPOCH": "1767225600", "CI": "1",
            "PYTHONPATH": str(REPO)}
-    peak = [0]
+    peak = [0, 0]
     start = time.perf_counter()
     proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
                             env=env, cwd=REPO)
 
     def watch() -> None:
         while proc.poll() is None:
-            peak[0] = max(peak[0], _tree_rss(proc.pid))
+            rss, pss = _tree_memory(proc.pid)
+            peak[0], peak[1] = max(peak[0], rss), max(peak[1], pss)
             time.sleep(0.05)
 
     watcher = threading.Thread(target=watch, daemon=True)
@@ -100,7 +112,16 @@ def run_build(src: Path, out: Path, cache: Path | None, jobs: int, stub: bool = 
     assert m, stderr[-2000:]
     pages, charts, drawn, cached, rewritten = (int(g) for g in m.groups())
     return {"seconds": round(seconds, 3), "pages": pages, "charts": charts, "drawn": drawn,
-            "cached": cached, "rewritten": rewritten, "peak_rss_MB": round(peak[0] / 2**20, 1)}
+            "cached": cached, "rewritten": rewritten, "peak_rss_MB": round(peak[0] / 2**20, 1),
+            "peak_pss_MB": round(peak[1] / 2**20, 1)}
+
+
+def repeated(n: int, one) -> dict:
+    """``one()`` (a run_build result) ``n`` times: the median run's figures, with every
+    run's seconds; the machine's speed wanders, so one run alone says little."""
+    runs = [one(i) for i in range(n)]
+    runs.sort(key=lambda r: r["seconds"])
+    return {**runs[len(runs) // 2], "runs_seconds": [r["seconds"] for r in runs]}
 
 
 # --- the floor: the same charts by bare matplotlib -----------------------------------------
@@ -277,6 +298,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--jobs", type=int, default=os.cpu_count() or 1)
     ap.add_argument("--json", type=Path, default=None)
     ap.add_argument("--keep", type=Path, default=None, help="work folder to keep")
+    ap.add_argument("--repeat", type=int, default=3,
+                    help="runs of each rebuild measurement (the median is reported)")
     ap.add_argument("--stub-charts", action="store_true",
                     help="draw charts with a stand-in: measures every rebuild step but the "
                     "drawing, skips the cold build's floor, the label test and the sizes")
@@ -293,18 +316,29 @@ def main(argv: list[str] | None = None) -> int:
         specs = chart_specs(src)
         r["floor_seconds"] = round(floor_seconds(specs, args.jobs), 3)
         r["cold_over_floor"] = round(r["cold"]["seconds"] / r["floor_seconds"], 3)
-    r["no_change"] = run_build(src, out, cache, args.jobs, stub)
-    sid = sorted(made)[len(made) // 2]
-    path = src / "species" / f"{sid}.yaml"
-    text = path.read_text(encoding="utf-8")
-    path.write_text(re.sub(r'dfH: "(-?[0-9.]+)', lambda m: f'dfH: "{float(m.group(1)) + 1.5:.3f}',
-                           text, count=1), encoding="utf-8")
-    users = sum(1 for f in (src / "reactions").glob("*.yaml")
-                if "(g)" in f.read_text() and _uses(f.read_text(), made[sid]))
-    r["edit_one_species"] = {**run_build(src, out, cache, args.jobs, stub), "species": sid,
-                             "reactions_using_it": users}
-    fresh = work / "out-pages"
-    r["pages_only"] = run_build(src, fresh, cache, args.jobs, stub)
+    r["no_change"] = repeated(args.repeat, lambda _i: run_build(src, out, cache, args.jobs,
+                                                                stub))
+    picks = sorted(made)
+
+    def edit_one(i: int) -> dict:
+        sid = picks[(len(picks) // 2 + 97 * i) % len(picks)]
+        path = src / "species" / f"{sid}.yaml"
+        text = path.read_text(encoding="utf-8")
+        path.write_text(re.sub(r'dfH: "(-?[0-9.]+)',
+                               lambda m: f'dfH: "{float(m.group(1)) + 1.5:.3f}', text, count=1),
+                        encoding="utf-8")
+        users = sum(1 for f in (src / "reactions").glob("*.yaml")
+                    if "(g)" in f.read_text() and _uses(f.read_text(), made[sid]))
+        return {**run_build(src, out, cache, args.jobs, stub), "species": sid,
+                "reactions_using_it": users}
+
+    r["edit_one_species"] = repeated(args.repeat, edit_one)
+
+    def pages_only(i: int) -> dict:
+        fresh = work / f"out-pages-{i}"
+        return run_build(src, fresh, cache, args.jobs, stub)
+
+    r["pages_only"] = repeated(args.repeat, pages_only)
     r.update(output_sizes(out))
     mk = mkdocs_seconds(r["html_pages"], int(r["median_page_KB"] * 1024), work)
     r["mkdocs_seconds"] = None if mk is None else round(mk, 3)
@@ -333,16 +367,18 @@ def _table(r: dict) -> None:
          f"{r['cold']['pages']} pages)"),
         ("floor (bare matplotlib, same charts)", f"{r.get('floor_seconds', 0):.1f} s"),
         ("cold / floor", f"{r.get('cold_over_floor', 0):.2f}"),
-        ("no-change rebuild", f"{r['no_change']['seconds']:.2f} s, "
+        ("no-change rebuild (median)", f"{r['no_change']['seconds']:.2f} s, "
          f"{r['no_change']['rewritten']} files rewritten"),
-        ("edit one species' dfH", f"{r['edit_one_species']['seconds']:.2f} s, "
+        ("edit one species' dfH (median)", f"{r['edit_one_species']['seconds']:.2f} s, "
          f"{r['edit_one_species']['rewritten']} files rewritten, "
          f"{r['edit_one_species']['drawn']} charts redrawn "
          f"({r['edit_one_species']['reactions_using_it']} reactions use it)"),
-        ("pages-only build (charts cached)", f"{r['pages_only']['seconds']:.2f} s"),
+        ("pages-only build, charts cached (median)", f"{r['pages_only']['seconds']:.2f} s "
+         f"(runs {r['pages_only']['runs_seconds']})"),
         ("generic generator, same page count", "not installed" if r["mkdocs_seconds"] is None
          else f"{r['mkdocs_seconds']:.2f} s ({r['mkdocs_over_pages_only']}x)"),
-        ("peak memory (cold, process tree)", f"{r['cold']['peak_rss_MB']:.0f} MB"),
+        ("peak memory (cold, process tree)", f"{r['cold']['peak_pss_MB']:.0f} MB PSS "
+         f"({r['cold']['peak_rss_MB']:.0f} MB summed RSS)"),
         ("output size", f"{r['output_MB']} MB"),
         ("median sheet with its charts", f"{r['median_sheet_with_charts_KB']} KB"),
         ("engine, 1000 species x 1000 T", "{batched:.3f} s batched (first call {first_call:.3f}"
