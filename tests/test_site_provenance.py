@@ -283,3 +283,14 @@ def test_manifest(site: Path) -> None:
     assert {"handbook.yaml", "references.yaml", "species/water-liquid.yaml",
             "reactions/vaporisation.yaml"} <= every
     assert pages["audit.html"] == pages["index.html"]
+
+
+def test_one_note_leaves_nothing_behind_for_the_next():
+    """The converter is reused between notes; a reference defined in one note must not
+    resolve in the next (Python-Markdown's reset between documents)."""
+    from generator.site import markdown_notes
+
+    first = markdown_notes.render("See [the log][x].\n\n[x]: #ops-log\n")
+    second = markdown_notes.render("See [the log][x].")
+    assert 'href="#ops-log"' in first
+    assert "href" not in second and "[the log][x]" in second

@@ -6,6 +6,8 @@ the tags and attributes below, links only to http, https, mailto or relative tar
 
 from __future__ import annotations
 
+import functools
+
 import markdown
 import nh3
 
@@ -18,12 +20,19 @@ URL_SCHEMES: frozenset[str] = frozenset({"http", "https", "mailto"})
 EXTENSIONS: tuple[str, ...] = ("tables", "fenced_code", "sane_lists")
 
 
+@functools.lru_cache(maxsize=1)
+def _converter() -> markdown.Markdown:
+    """One Markdown converter per process, reset before each note (Python-Markdown's own
+    advice for many documents; building one per note cost most of the time)."""
+    return markdown.Markdown(extensions=list(EXTENSIONS), output_format="html",
+                             extension_configs={"tables": {"use_align_attribute": True}})
+
+
 def render(text: str) -> str:
     """Sanitised HTML of a Markdown note ("" for an empty note)."""
     if not text or not text.strip():
         return ""
-    html = markdown.markdown(text, extensions=list(EXTENSIONS), output_format="html",
-                             extension_configs={"tables": {"use_align_attribute": True}})
+    html = _converter().reset().convert(text)
     return nh3.clean(
         html,
         tags=set(TAGS),
