@@ -208,6 +208,23 @@ def test_element_ladder(site: Path, computed) -> None:
     assert {lv.column for lv in spec.levels} == {0, 1}
 
 
+def test_ladder_past_the_legible_count_is_a_table_with_a_note(computed, monkeypatch) -> None:
+    from generator.site import design_pages
+
+    n = len(design_pages.ladder_points(computed, "H"))
+    assert n >= 2 and chart_specs.element_ladder(computed, "H") is not None
+    monkeypatch.setattr(chart_specs, "LADDER_CHART_MAX", n - 1)
+    assert chart_specs.element_ladder(computed, "H") is None
+    from generator.site import assets, pages
+
+    site = pages._site(computed, pages.SiteMeta(build_date="2026-01-01", revision="r"))
+    ctx = design_pages.element_context(computed, "H", site, ())
+    assert ctx["chart_omitted"].startswith(f"{n} species contain H, more than the {n - 1}")
+    assert len(ctx["rows"]) == n  # the table still lists every species
+    page = assets.environment().get_template("element.html").render(**ctx)
+    assert 'id="chart-omitted"' in page and "<img" not in page
+
+
 def test_cell_voltages_and_efficiency_at_operating_voltage(site: Path) -> None:
     text = text_of(site / "reactions" / "fuel-cell.html")
     # ΔrG° = −571.660 + 298.15 K × 0.326612 kJ/K = −474.281 kJ; E° = 474281/(4 F) = 1.2289 V;

@@ -35,7 +35,8 @@ def register(sub) -> None:
     p.add_argument("-o", "--output", default="out", help="site folder (default: out)")
     p.add_argument("-q", "--quiet", action="store_true", help="print only problems")
     p.add_argument("-j", "--jobs", type=_jobs, default=None, metavar="N",
-                   help="processes drawing charts (default: the number of cores)")
+                   help="processes computing reactions, rendering sheets and drawing charts "
+                   "(default: the number of cores)")
     p.add_argument("--cache", default=None, metavar="DIR",
                    help="chart cache folder (default: .thermofolio-cache beside SOURCES)")
     p.add_argument("--no-cache", action="store_true",

@@ -550,13 +550,21 @@ def family_chart(computed: Computed, name: str) -> ChartEntry | None:
     return ChartEntry("family", caption, spec)
 
 
+LADDER_CHART_MAX = 40  # species a ladder chart labels legibly (common practice, no source)
+
+
 def element_ladder(computed: Computed, symbol: str) -> ChartEntry | None:
-    """Every species containing ``symbol`` at its ΔfH° and ΔfG° per atom (two columns)."""
+    """Every species containing ``symbol`` at its ΔfH° and ΔfG° per atom (two columns);
+    None past LADDER_CHART_MAX species, whose labels would pile up (the page's table lists
+    them all, and a chart of a thousand labels took seconds to draw on every edit)."""
     from generator.site.design_pages import ladder_points
 
+    points = ladder_points(computed, symbol)
+    if len(points) > LADDER_CHART_MAX:
+        return None
     levels = []
     text = []
-    for p in ladder_points(computed, symbol):
+    for p in points:
         label = species_label(computed.handbook.species[p.species])
         if p.dfH is not None:
             levels.append(Level(f"h-{p.species}", label, p.dfH, 0))

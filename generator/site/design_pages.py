@@ -216,7 +216,15 @@ def element_context(computed: Computed, symbol: str, site: dict,
         rows.append({"href": f"{root}species/{p.species}.html", "label": species_label(sp),
                      "name": sp.name, "atoms": str(p.atoms), "dfH": fixed(p.dfH, "kJ"),
                      "dfG": fixed(p.dfG, "kJ")})
-    ctx.update({"symbol": symbol, "rows": rows, "charts": line_charts + level_charts})
+    from generator.site.chart_specs import LADDER_CHART_MAX
+
+    omitted = None
+    if len(rows) > LADDER_CHART_MAX:
+        omitted = (f"{len(rows)} species contain {symbol}, more than the {LADDER_CHART_MAX} a "
+                   "ladder chart can label legibly, so the ladder is given as the table below "
+                   "only.")
+    ctx.update({"symbol": symbol, "rows": rows, "charts": line_charts + level_charts,
+                "chart_omitted": omitted})
     return ctx
 
 
