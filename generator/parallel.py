@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import multiprocessing
 import os
+import threading
 from collections.abc import Callable, Sequence
 from typing import Any
 
@@ -27,7 +28,10 @@ def default_jobs() -> int:
 
 
 def can_fork() -> bool:
-    return "fork" in multiprocessing.get_all_start_methods()
+    """The platform forks and this process runs one thread: a fork copies only the calling
+    thread, so locks another thread holds (the preview server's, say) would never be
+    released in the child; with other threads running, the work stays in this process."""
+    return "fork" in multiprocessing.get_all_start_methods() and threading.active_count() == 1
 
 
 def _run_chunk(items: Sequence) -> list:

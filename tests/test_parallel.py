@@ -39,3 +39,18 @@ def _fails(_shared, x):
 def test_a_failure_in_a_worker_reaches_the_caller():
     with pytest.raises(ValueError, match="three"):
         parallel.fork_map(_fails, range(8), 2)
+
+
+def test_a_process_running_other_threads_does_not_fork():
+    import threading
+
+    stop = threading.Event()
+    helper = threading.Thread(target=stop.wait)
+    helper.start()
+    try:
+        assert not parallel.can_fork()
+        results, _ = parallel.fork_map(_square_and_pid, range(6), 2, 1)
+        assert {pid for _r, pid in results} == {os.getpid()}
+    finally:
+        stop.set()
+        helper.join()
