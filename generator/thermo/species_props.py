@@ -499,8 +499,9 @@ def species_table(species: Sequence[Species], T: np.ndarray | Sequence[float]
     if np.any(Tf <= 0.0):
         raise ValueError("temperatures must be positive (K)")
     n = len(species)
-    Cp, dH, dS = (np.empty((n, Tf.size)) for _ in range(3))
-    inside = np.empty((n, Tf.size), dtype=bool)
+    # S and extrapolated first hold S - S298 and the in-range flags (no extra arrays)
+    Cp, dH, H, S, G, gef = (np.empty((n, Tf.size)) for _ in range(6))
+    extrapolated = np.empty((n, Tf.size), dtype=bool)
     basis: list[str] = ["cp-pieces"] * n
     covered: list[tuple[float, float] | None] = [None] * n
     groups: dict[tuple, list[int]] = {}
@@ -513,7 +514,7 @@ def species_table(species: Sequence[Species], T: np.ndarray | Sequence[float]
         if plan is not None and plan.poly is not None:
             groups.setdefault((len(plan.pieces), plan.switches.tobytes()), []).append(i)
         else:
-            Cp[i], dH[i], dS[i], inside[i], basis[i] = _other_row(sp, Tf)
+            Cp[i], dH[i], S[i], extrapolated[i], basis[i] = _other_row(sp, Tf)
     blocks = []
     for rows in groups.values():
         first = plans[rows[0]]
@@ -527,22 +528,23 @@ def species_table(species: Sequence[Species], T: np.ndarray | Sequence[float]
     at_ref = np.abs(Tf - T_REF) < T_REF_TOL
     anchors = np.asarray([_anchor(sp) for sp in species], dtype=float).reshape(n, 2)
     dfH, S298 = anchors[:, :1], anchors[:, 1:]
-    H, S, G, gef = (np.empty((n, Tf.size)) for _ in range(4))
     T_kilo, per_T = Tf / 1000.0, 1000.0 / Tf  # G = H - T S / 1000, gef = S - 1000 dH / T
-    extrapolated = np.empty((n, Tf.size), dtype=bool)
+    any_ref = bool(at_ref.any())
 
     def poly_part(part) -> None:
         for block_plans, parts, at in part:
-            _poly_rows(block_plans, Tf, parts, at, Cp, dH, dS, inside)
+            _poly_rows(block_plans, Tf, parts, at, Cp, dH, S, extrapolated)
 
     def assemble(starts) -> None:
         for b in starts:  # blocks that stay in cache; the same operations for every block
             r = slice(b, b + BLOCK_ROWS)
-            dH[r, at_ref] = 0.0
-            dS[r, at_ref] = 0.0
-            np.logical_and(~inside[r], ~at_ref, out=extrapolated[r])
+            np.logical_not(extrapolated[r], out=extrapolated[r])  # in range -> extrapolated
+            if any_ref:
+                dH[r, at_ref] = 0.0
+                S[r, at_ref] = 0.0  # still S - S298 here
+                extrapolated[r, at_ref] = False
             np.add(dfH[r], dH[r], out=H[r])
-            np.add(S298[r], dS[r], out=S[r])
+            S[r] += S298[r]
             np.subtract(H[r], S[r] * T_kilo, out=G[r])
             np.subtract(S[r], dH[r] * per_T, out=gef[r])
 
