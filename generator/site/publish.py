@@ -304,19 +304,28 @@ def _handbook_bytes(computed: Computed, species_texts: Sequence[str],
     return (text + "\n").encode("utf-8")
 
 
+def _by_item(findings: Sequence[Finding]) -> dict[str | None, list[Finding]]:
+    """Findings grouped by the item they concern, in their order."""
+    out: dict[str | None, list[Finding]] = {}
+    for f in findings:
+        out.setdefault(f.item, []).append(f)
+    return out
+
+
 def item_exports(computed: Computed, findings: Sequence[Finding], keys: Sequence[str]
                  ) -> tuple[dict[str, bytes], dict[str, str]]:
     """The JSON and CSV files of the items ``keys`` and each item's JSON text (for
     data/handbook.json)."""
     files: dict[str, bytes] = {}
     texts: dict[str, str] = {}
+    by_item = _by_item(findings)
     for key in keys:
         kind, _, item = key.partition(":")
+        own = by_item.get(item, [])
         if kind == "species":
-            doc, folder, columns = species_doc(computed, item, findings), "species", SPECIES_CSV
+            doc, folder, columns = species_doc(computed, item, own), "species", SPECIES_CSV
         else:
-            doc, folder, columns = reaction_doc(computed, item, findings), "reactions", \
-                REACTION_CSV
+            doc, folder, columns = reaction_doc(computed, item, own), "reactions", REACTION_CSV
         texts[key] = _json_text(doc)
         files[f"{folder}/{item}.json"] = (texts[key] + "\n").encode("utf-8")
         files[f"{folder}/{item}.csv"] = csv_table(doc["rows"], columns).encode("utf-8")
@@ -380,9 +389,7 @@ def render_items(computed: Computed, findings: Sequence[Finding], meta: pages.Si
     """Chart specs, sheets and exports of the items ``keys`` (pure: no file is touched)."""
     views, specs, digests = _plan(chart_entries(computed, keys))
     notes = notes_html(computed, keys)
-    by_item: dict[str | None, list[Finding]] = {}
-    for f in findings:
-        by_item.setdefault(f.item, []).append(f)
+    by_item = _by_item(findings)
     sheets = [pages.item_page(computed, key, by_item.get(key.partition(":")[2], []), meta,
                               views.get(key, ()), notes.get(key, "")) for key in keys]
     files = render_pages(sheets)
