@@ -152,9 +152,6 @@ def evaluate_reaction(nu: Mapping[str, float], species: Mapping[str, Species],
     return on_grid, curve, crossings
 
 
-PARALLEL_MIN_REACTIONS = 200  # fewer reactions than this are computed in one process
-
-
 def _reaction_result(shared: tuple[Handbook, np.ndarray], rid: str) -> ReactionResult:
     """Grid values, chart curve, crossovers, Hess sum and character of one reaction."""
     hb, grid = shared
@@ -210,7 +207,7 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None, jobs: int
         )
 
     ids = list(hb.reactions)
-    results, _ = fork_map(_reaction_result, ids, jobs, (hb, grid), PARALLEL_MIN_REACTIONS)
+    results, _ = fork_map(_reaction_result, ids, jobs, (hb, grid))
     reactions: dict[str, ReactionResult] = dict(zip(ids, results, strict=True))
     computed = Computed(hb, element_refs, species, reactions, ())
     checks, findings = engine_checks(computed)

@@ -382,9 +382,6 @@ class Design:
     ladders: Mapping[str, tuple[LadderPoint, ...]]
 
 
-PARALLEL_MIN_REACTIONS = 200  # fewer reactions than this are designed in one process
-
-
 def _reaction_design(computed: Computed, rid: str) -> DesignResult:
     return reaction_design(computed.reactions[rid], computed)
 
@@ -395,7 +392,7 @@ def compute_design(computed: Computed, jobs: int = 1) -> Design:
     from generator.parallel import fork_map
 
     ids = list(computed.reactions)
-    results, _ = fork_map(_reaction_design, ids, jobs, computed, PARALLEL_MIN_REACTIONS)
+    results, _ = fork_map(_reaction_design, ids, jobs, computed)
     return Design(
         reactions=dict(zip(ids, results, strict=True)),
         families={name: family_curves(computed, name) for name in family_names(computed)},

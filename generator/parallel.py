@@ -16,6 +16,7 @@ import threading
 from collections.abc import Callable, Sequence
 from typing import Any
 
+MIN_ITEMS = 200  # fewer items than this are worked on in the calling process
 _TASK: tuple[Callable, Any] | None = None  # (fn, shared), set just before the fork
 
 
@@ -41,12 +42,15 @@ def _run_chunk(items: Sequence) -> list:
 
 
 def fork_map(fn: Callable[[Any, Any], Any], items: Sequence, jobs: int, shared: Any = None,
-             min_items: int = 2, meanwhile: Callable[[], Any] | None = None
+             min_items: int | None = None, meanwhile: Callable[[], Any] | None = None
              ) -> tuple[list, Any]:
     """``([fn(shared, x) for x in items], meanwhile())``; ``meanwhile`` runs in this process
-    while the workers work (its result is returned beside theirs)."""
+    while the workers work (its result is returned beside theirs).  ``min_items`` defaults
+    to MIN_ITEMS, read at each call."""
     global _TASK
     items = list(items)
+    if min_items is None:
+        min_items = MIN_ITEMS
     if jobs < 2 or len(items) < min_items or not can_fork():
         results = [fn(shared, x) for x in items]
         return results, meanwhile() if meanwhile else None

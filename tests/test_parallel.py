@@ -15,8 +15,9 @@ def _square_and_pid(shared, x):
 
 def test_results_keep_the_order_of_the_items_whatever_the_split():
     items = list(range(23))
-    one, _ = parallel.fork_map(_square_and_pid, items, 1, 3)
-    many, extra = parallel.fork_map(_square_and_pid, items, 3, 3, meanwhile=lambda: "here")
+    one, _ = parallel.fork_map(_square_and_pid, items, 1, 3, min_items=2)
+    many, extra = parallel.fork_map(_square_and_pid, items, 3, 3, min_items=2,
+                                     meanwhile=lambda: "here")
     assert [r for r, _pid in one] == [3 * x * x for x in items]
     assert [r for r, _pid in many] == [r for r, _pid in one]
     assert extra == "here"
@@ -38,7 +39,7 @@ def _fails(_shared, x):
 
 def test_a_failure_in_a_worker_reaches_the_caller():
     with pytest.raises(ValueError, match="three"):
-        parallel.fork_map(_fails, range(8), 2)
+        parallel.fork_map(_fails, range(8), 2, min_items=2)
 
 
 def test_a_process_running_other_threads_does_not_fork():
@@ -49,7 +50,7 @@ def test_a_process_running_other_threads_does_not_fork():
     helper.start()
     try:
         assert not parallel.can_fork()
-        results, _ = parallel.fork_map(_square_and_pid, range(6), 2, 1)
+        results, _ = parallel.fork_map(_square_and_pid, range(6), 2, 1, min_items=2)
         assert {pid for _r, pid in results} == {os.getpid()}
     finally:
         stop.set()

@@ -331,11 +331,9 @@ def test_sheets_rendered_by_worker_processes_are_byte_identical(site: Path, tmp_
     if "fork" not in multiprocessing.get_all_start_methods():
         pytest.skip("the platform cannot fork; sheets are always rendered in one process")
     monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
-    from generator import compute, design
+    from generator import parallel
 
-    monkeypatch.setattr(publish_mod, "PARALLEL_MIN_ITEMS", 1)
-    monkeypatch.setattr(compute, "PARALLEL_MIN_REACTIONS", 1)
-    monkeypatch.setattr(design, "PARALLEL_MIN_REACTIONS", 1)
+    monkeypatch.setattr(parallel, "MIN_ITEMS", 1)  # reactions, design numbers and sheets
     import os
 
     pids = tmp_path / "pids"

@@ -550,7 +550,7 @@ def family_chart(computed: Computed, name: str) -> ChartEntry | None:
     return ChartEntry("family", caption, spec)
 
 
-LADDER_CHART_MAX = 40  # species a ladder chart labels legibly (common practice, no source)
+LADDER_CHART_MAX = 40  # species a ladder chart labels legibly: our choice, no source
 
 
 def element_ladder(computed: Computed, symbol: str) -> ChartEntry | None:

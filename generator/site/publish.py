@@ -369,9 +369,6 @@ def notes_html(computed: Computed, keys: Sequence[str] | None = None) -> dict[st
 
 # --- the sheets, rendered in worker processes ----------------------------------------------
 
-PARALLEL_MIN_ITEMS = 200  # fewer sheets than this are rendered in the build's own process
-
-
 @dataclass(frozen=True)
 class ItemBatch:
     """What rendering some items' sheets gave: files by path, the sheets' paths, the charts
@@ -405,10 +402,10 @@ def _render_chunk(shared: tuple, keys: Sequence[str]) -> ItemBatch:
 def render_all_items(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
                      jobs: int, meanwhile=None) -> tuple[ItemBatch, object]:
     """Every item's sheet, split over ``jobs`` forked workers (generator.parallel) when there
-    are at least PARALLEL_MIN_ITEMS items.  ``meanwhile()`` runs in this process while the
+    are at least parallel.MIN_ITEMS items.  ``meanwhile()`` runs in this process while the
     workers render; its result is returned."""
     keys = pages.item_keys(computed)
-    n = 2 * jobs if jobs > 1 and len(keys) >= PARALLEL_MIN_ITEMS else 1
+    n = 2 * jobs if jobs > 1 and len(keys) >= parallel.MIN_ITEMS else 1
     chunks = [keys[i::n] for i in range(n)]
     batches, extra = parallel.fork_map(_render_chunk, chunks, jobs,
                                        (computed, findings, meta), 2, meanwhile)
