@@ -33,7 +33,8 @@ sys.path.insert(0, str(REPO))
 
 from synthetic import generate  # noqa: E402
 
-SUMMARY = re.compile(r"(\d+) pages, (\d+) charts \((\d+) drawn, (\d+) cached.*?\), "
+SUMMARY = re.compile(r"(\d+) pages, (\d+) of \d+ sheets rendered, (\d+) charts "
+                     r"\((\d+) drawn, (\d+) cached.*?\), "
                      r"(\d+) files rewritten")
 
 
@@ -110,9 +111,10 @@ def run_build(src: Path, out: Path, cache: Path | None, jobs: int, stub: bool = 
         raise SystemExit(f"build failed ({proc.returncode}):\n{stderr[-3000:]}")
     m = SUMMARY.search(stderr)
     assert m, stderr[-2000:]
-    pages, charts, drawn, cached, rewritten = (int(g) for g in m.groups())
+    pages, sheets, charts, drawn, cached, rewritten = (int(g) for g in m.groups())
     return {"seconds": round(seconds, 3), "pages": pages, "charts": charts, "drawn": drawn,
-            "cached": cached, "rewritten": rewritten, "peak_rss_MB": round(peak[0] / 2**20, 1),
+            "cached": cached, "sheets_rendered": sheets, "rewritten": rewritten,
+            "peak_rss_MB": round(peak[0] / 2**20, 1),
             "peak_pss_MB": round(peak[1] / 2**20, 1)}
 
 

@@ -17,6 +17,7 @@ import numpy as np
 
 from generator.diagnostics import Finding
 from generator.model import Handbook, Reaction, Species
+from generator.neighbourhood import Digester, digester_for, reaction_handbook
 from generator.parallel import fork_map
 from generator.thermo.constants import T_REF
 from generator.thermo.reactions import (
@@ -31,6 +32,7 @@ from generator.thermo.reference_states import resolve_reference_states
 from generator.thermo.species_props import (
     FormationFunctions,
     SpeciesFunctions,
+    formation_coefficients,
     formation_functions,
     species_functions,
 )
@@ -40,6 +42,7 @@ if TYPE_CHECKING:
     from generator.design import Design
     from generator.network import NetworkResult
     from generator.provenance import Completeness, Provenance
+    from generator.results_cache import ResultStore
 
 CHART_POINTS = 120  # points of a smooth curve on a chart
 
@@ -173,12 +176,71 @@ def _reaction_result(shared: tuple[Handbook, np.ndarray], rid: str) -> ReactionR
     )
 
 
-def compute_handbook(handbook: Handbook, today: dt.date | None = None, jobs: int = 1
-                     ) -> Computed:
+def _species_curves(sp: Species, element_refs: Mapping[str, Species], grid: np.ndarray,
+                    results: ResultStore | None, digester: Digester
+                    ) -> tuple[SpeciesFunctions, FormationFunctions, SpeciesFunctions]:
+    """A species' functions on the grid, its formation functions and its chart curve: pure
+    functions of the species, the element reference states and the grid, kept in
+    ``results`` under the digest of exactly those."""
+    refs = {el: element_refs[el] for el in formation_coefficients(sp) if el in element_refs}
+    digest = None
+    if results is not None:
+        digest = digester.parts("species", sp, refs, grid)
+        hit = results.get("species", sp.id, digest)
+        if isinstance(hit, tuple) and len(hit) == 3:
+            return hit
+    fine = chart_grid(sp.Tmin, sp.Tmax) if sp.cp else np.array([T_REF])
+    made = (species_functions(sp, grid), formation_functions(sp, refs, grid),
+            species_functions(sp, fine))
+    if results is not None and digest is not None:
+        results.put("species", sp.id, digest, made)
+    return made
+
+
+def _reaction_from_cut(shared: tuple[Mapping[str, Handbook], np.ndarray], rid: str
+                       ) -> ReactionResult:
+    cuts, grid = shared
+    return _reaction_result((cuts[rid], grid), rid)
+
+
+def _reactions(hb: Handbook, grid: np.ndarray, jobs: int, results: ResultStore | None
+               ) -> dict[str, ReactionResult]:
+    """Every reaction's result, each computed from its own cut of the handbook
+    (generator.neighbourhood.reaction_handbook) or taken from ``results`` under the
+    digest of that cut and the grid."""
+    cuts = {rid: reaction_handbook(hb, rid) for rid in hb.reactions}
+    digester = digester_for(hb)
+    digests = {rid: digester.cut(cut, "reaction", rid, grid) for rid, cut in cuts.items()}
+    out: dict[str, ReactionResult] = {}
+    if results is not None:
+        for rid, digest in digests.items():
+            hit = results.get("reaction", rid, digest)
+            if isinstance(hit, ReactionResult):
+                out[rid] = hit
+    todo = [rid for rid in hb.reactions if rid not in out]
+    fresh, _ = fork_map(_reaction_from_cut, todo, jobs, (cuts, grid))
+    for rid, rr in zip(todo, fresh, strict=True):
+        out[rid] = rr
+        if results is not None:
+            results.put("reaction", rid, digests[rid], rr)
+    return {rid: _current(out[rid], hb.reactions[rid]) for rid in hb.reactions}
+
+
+def _current(rr: ReactionResult, rx: Reaction) -> ReactionResult:
+    """``rr`` holding this build's reaction object (a cached result holds an equal copy)."""
+    from dataclasses import replace
+
+    return rr if rr.reaction is rx else replace(rr, reaction=rx)
+
+
+def compute_handbook(handbook: Handbook, today: dt.date | None = None, jobs: int = 1,
+                     results: ResultStore | None = None) -> Computed:
     """Everything the handbook publishes; review ages are counted to ``today`` (default:
     ``provenance.today_from_environment``, SOURCE_DATE_EPOCH or the current date).  With
     ``jobs`` > 1 the reactions are computed by that many forked processes (the same
-    numbers: each reaction is a pure function of its species)."""
+    numbers: each reaction is a pure function of its species).  ``results`` (a
+    generator.results_cache.ResultsCache, or anything with its get and put) keeps each
+    reaction's engine and design numbers between builds; this module does no I/O itself."""
     from generator.findings import engine_checks
     from generator.network import network_findings, solve_network
     from generator.provenance import provenance, today_from_environment
@@ -193,22 +255,19 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None, jobs: int
 
     species: dict[str, SpeciesResult] = {}
     atoms_of = atom_species(hb)
+    digester = digester_for(hb)
     for sid, sp in hb.species.items():
-        fine = chart_grid(sp.Tmin, sp.Tmax) if sp.cp else np.array([T_REF])
         atoms = _atoms(sp, hb, atoms_of)
+        on_grid, formation, curve = _species_curves(sp, element_refs, grid, results,
+                                                    digester)
         species[sid] = SpeciesResult(
-            species=sp,
-            grid=species_functions(sp, grid),
-            formation=formation_functions(sp, element_refs, grid),
-            curve=species_functions(sp, fine),
+            species=sp, grid=on_grid, formation=formation, curve=curve,
             reactions=tuple(sorted(users.get(sid, ()))),
             atomization=_atomization(sp, atoms, hb),
             atoms=atoms or (),
         )
 
-    ids = list(hb.reactions)
-    results, _ = fork_map(_reaction_result, ids, jobs, (hb, grid))
-    reactions: dict[str, ReactionResult] = dict(zip(ids, results, strict=True))
+    reactions = _reactions(hb, grid, jobs, results)
     computed = Computed(hb, element_refs, species, reactions, ())
     checks, findings = engine_checks(computed)
     reactions = {rid: _with_checks(r, checks.get(rid, ())) for rid, r in reactions.items()}
@@ -221,7 +280,7 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None, jobs: int
 
     computed = Computed(hb, element_refs, species, reactions, tuple(ref_findings + findings),
                         provenance=prov, network=network)
-    return replace(computed, design=compute_design(computed, jobs))
+    return replace(computed, design=compute_design(computed, jobs, results))
 
 
 def _with_checks(r: ReactionResult, checks) -> ReactionResult:

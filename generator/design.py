@@ -34,6 +34,7 @@ from generator.thermo.equilibrium import EquilibriumCurve, equilibrium_curves, s
 
 if TYPE_CHECKING:
     from generator.compute import Computed, ReactionResult
+    from generator.results_cache import ResultStore
 
 CHART_T_POINTS = 61  # points of an equilibrium conversion curve on its chart
 STOICHIOMETRIC = "stoichiometric reactants"
@@ -382,19 +383,36 @@ class Design:
     ladders: Mapping[str, tuple[LadderPoint, ...]]
 
 
-def _reaction_design(computed: Computed, rid: str) -> DesignResult:
-    return reaction_design(computed.reactions[rid], computed)
+def _reaction_design(views: Mapping[str, Computed], rid: str) -> DesignResult:
+    return reaction_design(views[rid].reactions[rid], views[rid])
 
 
-def compute_design(computed: Computed, jobs: int = 1) -> Design:
-    """The design reference of a computed handbook, once per build (the reactions' part
-    split over ``jobs`` forked processes; generator.parallel)."""
+def compute_design(computed: Computed, jobs: int = 1, results: ResultStore | None = None
+                   ) -> Design:
+    """The design reference of a computed handbook, once per build: each reaction's part
+    from its own cut (generator.neighbourhood.reaction_view), kept in ``results`` under the
+    digest of that cut, the rest split over ``jobs`` forked processes (generator.parallel);
+    then the families and element ladders."""
+    from generator.neighbourhood import digester_for, reaction_view
     from generator.parallel import fork_map
 
-    ids = list(computed.reactions)
-    results, _ = fork_map(_reaction_design, ids, jobs, computed)
+    views = {rid: reaction_view(computed, rid) for rid in computed.reactions}
+    digester = digester_for(computed.handbook)
+    digests = {rid: digester.view(v, "design", rid) for rid, v in views.items()}
+    done: dict[str, DesignResult] = {}
+    if results is not None:
+        for rid, digest in digests.items():
+            hit = results.get("design", rid, digest)
+            if isinstance(hit, DesignResult):
+                done[rid] = hit
+    todo = [rid for rid in computed.reactions if rid not in done]
+    fresh, _ = fork_map(_reaction_design, todo, jobs, views)
+    for rid, d in zip(todo, fresh, strict=True):
+        done[rid] = d
+        if results is not None:
+            results.put("design", rid, digests[rid], d)
     return Design(
-        reactions=dict(zip(ids, results, strict=True)),
+        reactions={rid: done[rid] for rid in computed.reactions},
         families={name: family_curves(computed, name) for name in family_names(computed)},
         ladders={el: tuple(ladder_points(computed, el)) for el in element_symbols(computed)})
 

@@ -18,19 +18,20 @@ from generator.model import Handbook
 
 if TYPE_CHECKING:
     from generator.compute import Computed
+    from generator.results_cache import ResultStore
 
 
-def load_and_compute(root: Path, jobs: int = 1
+def load_and_compute(root: Path, jobs: int = 1, results: ResultStore | None = None
                      ) -> tuple[Handbook | None, Computed | None, list[Finding]]:
-    """Load and validate the sources, then compute them (``jobs`` processes) and run the
-    consistency checks; the findings of both steps together (no computation when loading
-    failed)."""
+    """Load and validate the sources, then compute them (``jobs`` processes; per-reaction
+    numbers kept in ``results`` between builds) and run the consistency checks; the
+    findings of both steps together (no computation when loading failed)."""
     handbook, findings = load_handbook(root)
     if handbook is None:
         return None, None, findings
     from generator.compute import compute_handbook
 
-    computed = compute_handbook(handbook, jobs=jobs)
+    computed = compute_handbook(handbook, jobs=jobs, results=results)
     return handbook, computed, findings + list(computed.findings)
 
 

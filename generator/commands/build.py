@@ -70,9 +70,11 @@ def build_site(sources: Path, output: Path, quiet: bool = False,
             return 0
     from generator.parallel import default_jobs
     from generator.pipeline import load_and_compute
+    from generator.site.publish import results_cache_for
 
     jobs = int(getattr(args, "jobs", 0) or default_jobs())
-    handbook, computed, findings = load_and_compute(sources, jobs)
+    results = results_cache_for(args, sources)
+    handbook, computed, findings = load_and_compute(sources, jobs, results)
     findings = sort_findings(findings)
     for f in findings:
         if not quiet or f.severity is Severity.ERROR:
@@ -108,38 +110,7 @@ def build_site(sources: Path, output: Path, quiet: bool = False,
 # nothing and reports the site up to date.
 
 STAMP_FOLDER = "stamps"
-_LIBRARIES = ("numpy", "matplotlib", "jinja2", "markupsafe", "markdown", "nh3", "pint",
-              "pyyaml", "molmass")
 _PATCHABLE_OK = frozenset({"render_many"})  # a stand-in drawer salts the stamp instead
-
-
-def _hidden(rel_parts: tuple[str, ...]) -> bool:
-    return any(part.startswith(".") for part in rel_parts)
-
-
-def _tree_digest(h, base: Path, skip_hidden: bool) -> float:
-    """Feed every file under ``base`` (relative path and bytes, sorted) into ``h``; returns
-    the newest modification time seen."""
-    newest = 0.0
-    base_s = os.path.abspath(base)
-    for dirpath, dirs, names in os.walk(base_s):
-        rel_dir = os.path.relpath(dirpath, base_s)
-        parts = () if rel_dir == "." else tuple(rel_dir.split(os.sep))
-        dirs[:] = sorted(d for d in dirs if not (skip_hidden and d.startswith("."))
-                         and d != "__pycache__")
-        for name in sorted(names):
-            if (skip_hidden and name.startswith(".")) or name.endswith((".pyc", ".pyo")):
-                continue
-            full = os.path.join(dirpath, name)
-            if not os.path.isfile(full):
-                continue
-            with open(full, "rb") as fh:
-                data = fh.read()
-            rel = "/".join((*parts, name))
-            h.update(f"{rel}\0{len(data)}\0".encode())
-            h.update(data)
-            newest = max(newest, os.stat(full).st_mtime)
-    return newest
 
 
 def _git_heads(root: Path) -> str:
@@ -151,18 +122,6 @@ def _git_heads(root: Path) -> str:
     except (OSError, subprocess.SubprocessError):
         return "no git"
     return f"{done.returncode}\n{done.stdout}"
-
-
-def _versions() -> str:
-    from importlib import metadata
-
-    out = [sys.version]
-    for name in _LIBRARIES:
-        try:
-            out.append(f"{name}={metadata.version(name)}")
-        except metadata.PackageNotFoundError:
-            out.append(f"{name}=none")
-    return "\n".join(out)
 
 
 def _publish_renderer() -> str | None:
@@ -188,20 +147,14 @@ def build_stamp(sources: Path, args: argparse.Namespace) -> str | None:
     renderer = _publish_renderer()
     if renderer is None:
         return None
-    import generator
+    from generator.results_cache import code_identity, tree_digest
 
-    h = hashlib.sha256(b"thermofolio build stamp 1\0")
-    package = Path(generator.__file__).resolve().parent
-    h.update(f"{generator.__version__}\0{_versions()}\0{renderer}\0".encode())
-    _tree_digest(h, package, skip_hidden=False)
-    outside = package.parent / "site_templates"
-    if outside.is_dir():
-        h.update(b"\0templates\0")
-        _tree_digest(h, outside, skip_hidden=False)
+    h = hashlib.sha256(b"thermofolio build stamp 2\0")
+    h.update(f"{code_identity()}\0{renderer}\0".encode())
     root = Path(os.path.abspath(sources))
     given = str(sources) if os.path.isabs(sources) else f"{sources}\0{os.getcwd()}"
     h.update(f"\0sources\0{root}\0{given}\0".encode())  # pages show the path as given
-    newest = _tree_digest(h, root, skip_hidden=True)
+    newest = tree_digest(h, root, skip_hidden=True)
     epoch = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
     h.update(f"\0date\0{epoch}\0{'' if epoch.isdigit() else repr(newest)}\0".encode())
     h.update(f"\0git\0{_git_heads(root)}\0".encode())

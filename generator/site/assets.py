@@ -6,6 +6,7 @@ force-include in pyproject.toml); an editable install reads ``<repo>/site_templa
 
 from __future__ import annotations
 
+import functools
 from pathlib import Path
 
 import jinja2
@@ -35,6 +36,13 @@ def environment(folder: Path | None = None) -> jinja2.Environment:
         lstrip_blocks=True,
         keep_trailing_newline=True,
     )
+
+
+@functools.lru_cache(maxsize=4)
+def shared_environment(folder: Path) -> jinja2.Environment:
+    """One ``environment`` per process and folder, so each template is compiled once (its
+    loader still recompiles a template whose file changed: jinja2's auto_reload)."""
+    return environment(folder)
 
 
 def static_assets(folder: Path | None = None) -> dict[str, bytes]:

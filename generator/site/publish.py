@@ -10,11 +10,12 @@ from __future__ import annotations
 
 import json
 import os
+import pickle
 import subprocess
 import sys
 import time
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import datetime, timezone
 from pathlib import Path
 
@@ -31,7 +32,9 @@ from generator.exports import (
     species_rows,
 )
 from generator.model import Handbook
+from generator.neighbourhood import Digester, digester_for, item_view
 from generator.progress import Progress
+from generator.results_cache import ResultsCache
 from generator.site import assets, markdown_notes, output, pages
 from generator.site.chart_cache import ChartCache, cache_key, default_folder
 
@@ -154,6 +157,11 @@ def _plan(entries: Mapping[str, Sequence]):
     return views, specs, digests
 
 
+def chart_spec(spec):
+    """A chart spec, unpickled first when it came from the results cache as bytes."""
+    return pickle.loads(spec) if isinstance(spec, bytes) else spec
+
+
 @dataclass(frozen=True)
 class ChartStats:
     """Charts published, drawn this build, taken from the cache, and cache entries rejected."""
@@ -181,7 +189,7 @@ def draw_charts(specs: Mapping[str, object], digests: Mapping[str, str],
     renderer = _renderer_name()
     out: dict[str, bytes] = {}
     todo: list[str] = []
-    for path in sorted(specs):
+    for path in sorted(digests):
         svg = cache.get(cache_key(digests[path], renderer)) if cache is not None else None
         if svg is None:
             todo.append(path)
@@ -189,7 +197,7 @@ def draw_charts(specs: Mapping[str, object], digests: Mapping[str, str],
             out[path] = svg
     if todo:
         bar = Progress("drawing charts", len(todo), quiet=quiet, start=start)
-        todo_specs = [specs[p] for p in todo]
+        todo_specs = [chart_spec(specs[p]) for p in todo]
         n_jobs = jobs if len(todo) > 2 * jobs else 1
         if renderer:  # a stand-in renderer takes (specs, jobs)
             drawn = render_many(todo_specs, n_jobs)
@@ -352,7 +360,7 @@ def export_files(computed: Computed, findings: Sequence[Finding]) -> dict[str, b
 
 
 def render_pages(site_pages: Sequence[pages.Page]) -> dict[str, bytes]:
-    env = assets.environment()
+    env = assets.shared_environment(assets.templates_dir())
     return {p.path: env.get_template(p.template).render(**p.context).encode("utf-8")
             for p in site_pages}
 
@@ -372,7 +380,9 @@ def notes_html(computed: Computed, keys: Sequence[str] | None = None) -> dict[st
 @dataclass(frozen=True)
 class ItemBatch:
     """What rendering some items' sheets gave: files by path, the sheets' paths, the charts
-    they show (specs and digests by chart path) and each item's JSON text."""
+    they show (specs and digests by chart path) and each item's JSON text.  A sheet from
+    the results cache holds each spec pickled (bytes), unpickled only if its chart must be
+    drawn (chart_spec)."""
 
     files: dict[str, bytes]
     page_paths: list[str]
@@ -395,30 +405,84 @@ def render_items(computed: Computed, findings: Sequence[Finding], meta: pages.Si
     return ItemBatch(files, [p.path for p in sheets], specs, digests, texts)
 
 
-def _render_chunk(shared: tuple, keys: Sequence[str]) -> ItemBatch:
-    return render_items(*shared, keys)
+def sheet_meta(meta: pages.SiteMeta, view: Computed, key: str) -> pages.SiteMeta:
+    """The build facts one sheet shows: date, revision and its own source file's history
+    (``changes`` is shown on its own page only)."""
+    from generator.site.provenance_view import rel_source
+
+    kind, _, item = key.partition(":")
+    of = view.species[item].species if kind == "species" else view.reactions[item].reaction
+    histories = meta.histories
+    if histories:
+        rel = rel_source(view.handbook.root, of.path)
+        histories = {rel: tuple(histories.get(rel, ()))}
+    return pages.SiteMeta(build_date=meta.build_date, revision=meta.revision,
+                          histories=histories)
+
+
+def render_sheet(computed: Computed, key: str, findings: Sequence[Finding],
+                 meta: pages.SiteMeta, results: ResultsCache | None = None,
+                 digester: Digester | None = None) -> tuple[ItemBatch, bool]:
+    """One item's sheet, charts and exports, rendered from the item's neighbourhood
+    (generator.neighbourhood.item_view) and kept in ``results`` under the digest of that
+    neighbourhood, the item's findings and its build facts; (batch, True when rendered now).
+    ``findings``: the item's own."""
+    view = item_view(computed, key)
+    own_meta = sheet_meta(meta, view, key)
+    digest = None
+    if results is not None:
+        digest = (digester or digester_for(computed.handbook)).view(
+            view, "sheet", key, tuple(findings), own_meta)
+        hit = results.get("sheet", key, digest)
+        if isinstance(hit, ItemBatch):
+            return hit, False
+    batch = render_items(view, findings, own_meta, [key])
+    if results is not None and digest is not None:
+        results.put("sheet", key, digest, replace(batch, specs={
+            path: pickle.dumps(spec, protocol=5) for path, spec in batch.specs.items()}))
+    return batch, True
+
+
+def _render_chunk(shared: tuple, keys: Sequence[str]) -> tuple[ItemBatch, int]:
+    computed, findings, meta, results = shared
+    by_item = _by_item(findings)
+    digester = digester_for(computed.handbook)
+    merged = ItemBatch({}, [], {}, {}, {})
+    rendered = 0
+    for key in keys:
+        batch, fresh = render_sheet(computed, key, by_item.get(key.partition(":")[2], []),
+                                    meta, results, digester)
+        rendered += fresh
+        _merge(merged, batch)
+    return merged, rendered
+
+
+def _merge(into: ItemBatch, b: ItemBatch) -> None:
+    into.files.update(b.files)
+    into.page_paths.extend(b.page_paths)
+    into.specs.update(b.specs)
+    into.digests.update(b.digests)
+    into.texts.update(b.texts)
 
 
 def render_all_items(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
-                     jobs: int, meanwhile=None) -> tuple[ItemBatch, object]:
-    """Every item's sheet, split over ``jobs`` forked workers (generator.parallel) when there
-    are at least parallel.MIN_ITEMS items.  ``meanwhile()`` runs in this process while the
-    workers render; its result is returned."""
+                     jobs: int, meanwhile=None, results: ResultsCache | None = None
+                     ) -> tuple[ItemBatch, object, int]:
+    """Every item's sheet (render_sheet), split over ``jobs`` forked workers
+    (generator.parallel) when there are at least parallel.MIN_ITEMS items.  ``meanwhile()``
+    runs in this process while the workers render; (sheets, its result, sheets rendered
+    now rather than taken from ``results``)."""
     keys = pages.item_keys(computed)
     n = 2 * jobs if jobs > 1 and len(keys) >= parallel.MIN_ITEMS else 1
     chunks = [keys[i::n] for i in range(n)]
-    batches, extra = parallel.fork_map(_render_chunk, chunks, jobs,
-                                       (computed, findings, meta), 2, meanwhile)
-    if len(batches) == 1:
-        return batches[0], extra
+    parts, extra = parallel.fork_map(_render_chunk, chunks, jobs,
+                                     (computed, findings, meta, results), 2, meanwhile)
+    if len(parts) == 1:
+        return parts[0][0], extra, parts[0][1]
     merged = ItemBatch({}, [], {}, {}, {})
-    for b in batches:
-        merged.files.update(b.files)
-        merged.page_paths.extend(b.page_paths)
-        merged.specs.update(b.specs)
-        merged.digests.update(b.digests)
-        merged.texts.update(b.texts)
-    return merged, extra
+    for batch, _n in parts:
+        _merge(merged, batch)
+    return merged, extra, sum(n for _b, n in parts)
 
 
 def default_jobs() -> int:
@@ -432,6 +496,21 @@ def chart_cache_for(args, root: Path) -> ChartCache | None:
         return None
     folder = getattr(args, "cache", None)
     return ChartCache(Path(folder) if folder else default_folder(root))
+
+
+def results_cache_for(args, root: Path) -> ResultsCache | None:
+    """The results cache in the chart cache's folder; none with ``--no-cache`` or when a
+    step of this module was replaced in this process (a test's stand-in must run)."""
+    if getattr(args, "no_cache", False) or not _own_steps():
+        return None
+    folder = getattr(args, "cache", None)
+    return ResultsCache(Path(folder) if folder else default_folder(root))
+
+
+def _own_steps() -> bool:
+    """No step of this module but the chart drawer is replaced in this process."""
+    here = globals()
+    return all(here.get(k) is v for k, v in _ORIGINALS.items() if k != "render_many")
 
 
 def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, args,
@@ -460,8 +539,9 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
         views, specs, digests = _plan(handbook_chart_entries(computed))
         return pages.handbook_pages(computed, every, meta, views), specs, digests
 
-    items, (site_pages, specs, digests) = render_all_items(computed, every, meta, jobs,
-                                                           handbook_part)
+    results = results_cache_for(args, root)
+    items, (site_pages, specs, digests), rendered = render_all_items(
+        computed, every, meta, jobs, handbook_part, results)
     files = render_pages(site_pages)
     files.update(items.files)
     files.update(handbook_exports(computed, items.texts))
@@ -483,7 +563,9 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
         n_warn = sum(f.severity is Severity.WARNING for f in every)
         elapsed = time.perf_counter() - start_time
         bad = f", {stats.rejected} bad cache entries redrawn" if stats.rejected else ""
-        print(f"thermofolio build: {len(page_paths)} pages, {stats.total} charts "
+        n_items = len(items.page_paths)
+        print(f"thermofolio build: {len(page_paths)} pages, {rendered} of {n_items} sheets "
+              f"rendered, {stats.total} charts "
               f"({stats.drawn} drawn, {stats.cached} cached{bad}), "
               f"{result.rewritten} files rewritten, {result.kept} unchanged, "
               f"{n_warn} warnings, {elapsed:.1f} s -> {out}", file=sys.stderr)

@@ -1,0 +1,166 @@
+"""The results cache: computed numbers and rendered sheets of single items, kept between builds.
+
+Each entry belongs to one item and one kind of work (``reaction`` engine numbers, ``design``
+numbers, ``sheet`` files) and is stored under ``<cache>/results/<kind>/<name>.pickle``,
+``name`` a digest of the item id, so there is at most one entry per item and kind: a changed
+item overwrites its own entry and the cache never grows past the handbook.  An entry holds
+the key it was made for (generator.neighbourhood's digest of everything the work could see,
+salted with ``code_identity``: the package's code and templates and the library versions),
+the sha256 and length of its payload, then the payload.  A get with any other key, or an
+entry whose payload fails its checks (truncated, corrupted), is a miss and the work is done
+again; nothing unverified is ever used.  Entries are written to a temporary file and renamed
+into place.
+
+The payload is a pickle: the folder is trusted like the sources and the code beside it (it
+is the user's own, default ``.thermofolio-cache`` beside the sources); the checks guard
+against damage, not against someone who may write there.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import pickle
+import re
+import sys
+import tempfile
+from pathlib import Path
+from typing import Any, Protocol
+
+FOLDER = "results"
+_HEAD = re.compile(rb"thermofolio-result 1 ([0-9a-f]{64}) ([0-9a-f]{64}) ([0-9]+)\n")
+LIBRARIES = ("numpy", "matplotlib", "jinja2", "markupsafe", "markdown", "nh3", "pint",
+             "pyyaml", "molmass")
+
+
+def tree_digest(h, base: Path, skip_hidden: bool) -> float:
+    """Feed every file under ``base`` (relative path and bytes, sorted; no ``__pycache__``)
+    into ``h``; returns the newest modification time seen."""
+    newest = 0.0
+    base_s = os.path.abspath(base)
+    for dirpath, dirs, names in os.walk(base_s):
+        rel_dir = os.path.relpath(dirpath, base_s)
+        parts = () if rel_dir == "." else tuple(rel_dir.split(os.sep))
+        dirs[:] = sorted(d for d in dirs if not (skip_hidden and d.startswith("."))
+                         and d != "__pycache__")
+        for name in sorted(names):
+            if (skip_hidden and name.startswith(".")) or name.endswith((".pyc", ".pyo")):
+                continue
+            full = os.path.join(dirpath, name)
+            if not os.path.isfile(full):
+                continue
+            with open(full, "rb") as fh:
+                data = fh.read()
+            rel = "/".join((*parts, name))
+            h.update(f"{rel}\0{len(data)}\0".encode())
+            h.update(data)
+            newest = max(newest, os.stat(full).st_mtime)
+    return newest
+
+
+def library_versions() -> str:
+    """Python's version and those of the libraries the output depends on."""
+    from importlib import metadata
+
+    out = [sys.version]
+    for name in LIBRARIES:
+        try:
+            out.append(f"{name}={metadata.version(name)}")
+        except metadata.PackageNotFoundError:
+            out.append(f"{name}=none")
+    return "\n".join(out)
+
+
+def code_identity() -> str:
+    """sha256 of the package's files, the templates beside it and the library versions:
+    any change to the code that computes or renders changes it."""
+    import generator
+
+    h = hashlib.sha256(b"thermofolio code 1\0")
+    package = Path(generator.__file__).resolve().parent
+    h.update(f"{generator.__version__}\0{library_versions()}\0".encode())
+    tree_digest(h, package, skip_hidden=False)
+    outside = package.parent / "site_templates"
+    if outside.is_dir():
+        h.update(b"\0templates\0")
+        tree_digest(h, outside, skip_hidden=False)
+    return h.hexdigest()
+
+
+class ResultStore(Protocol):
+    """What the compute and render stages need of a cache (they do no I/O themselves)."""
+
+    def get(self, kind: str, item: str, digest: str) -> Any: ...
+
+    def put(self, kind: str, item: str, digest: str, result: Any) -> None: ...
+
+
+class ResultsCache:
+    """Get and put one pickled result per (kind, item) under a key; counts hits, misses
+    and rejected entries.  A cache that cannot be written is skipped silently (the build
+    still has the result it just made)."""
+
+    def __init__(self, folder: Path, salt: str | None = None) -> None:
+        self.folder = Path(folder) / FOLDER
+        self.salt = code_identity() if salt is None else salt
+        self.hits = 0
+        self.misses = 0
+        self.rejected = 0
+
+    def key(self, digest: str) -> str:
+        return hashlib.sha256(f"{self.salt}\0{digest}".encode()).hexdigest()
+
+    def entry(self, kind: str, item: str) -> Path:
+        if not re.fullmatch(r"[a-z]+", kind):
+            raise ValueError(f"not a result kind: {kind!r}")
+        name = hashlib.sha256(item.encode("utf-8")).hexdigest()[:40]
+        return self.folder / kind / f"{name}.pickle"
+
+    def get(self, kind: str, item: str, digest: str):
+        """The result stored for ``item`` under ``digest``, or None."""
+        path = self.entry(kind, item)
+        try:
+            data = path.read_bytes()
+        except OSError:
+            self.misses += 1
+            return None
+        m = _HEAD.match(data)
+        payload = data[m.end():] if m else b""
+        if m is None or len(payload) != int(m.group(3)) or \
+                hashlib.sha256(payload).hexdigest().encode() != m.group(2):
+            self.rejected += 1
+            self.misses += 1
+            return None
+        if m.group(1).decode() != self.key(digest):
+            self.misses += 1
+            return None
+        try:
+            result = pickle.loads(payload)
+        except Exception:  # a payload of an older layout; recompute  # noqa: BLE001
+            self.rejected += 1
+            self.misses += 1
+            return None
+        self.hits += 1
+        return result
+
+    def put(self, kind: str, item: str, digest: str, result) -> None:
+        path = self.entry(kind, item)
+        payload = pickle.dumps(result, protocol=5)
+        head = (f"thermofolio-result 1 {self.key(digest)} "
+                f"{hashlib.sha256(payload).hexdigest()} {len(payload)}\n").encode()
+        try:
+            path.parent.mkdir(parents=True, exist_ok=True)
+            fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=path.parent)
+            try:
+                with os.fdopen(fd, "wb") as fh:
+                    fh.write(head)
+                    fh.write(payload)
+                os.replace(tmp, path)
+            except BaseException:
+                try:
+                    os.unlink(tmp)
+                except OSError:
+                    pass
+                raise
+        except OSError:
+            return
