@@ -18,6 +18,7 @@ out, may exceed 10^6.  Every problem raises :class:`FormulaError` with a 1-based
 from __future__ import annotations
 
 import difflib
+import functools
 import html as _html
 from dataclasses import dataclass
 
@@ -103,8 +104,10 @@ def _pieces_or_plain(text: str) -> list[tuple[str, str]]:
         return [("sym", text)]
 
 
+@functools.lru_cache(maxsize=8192)
 def parse_formula(text: str) -> Formula:
-    """Parse ``text`` (see the module docstring); raises FormulaError, nothing else."""
+    """Parse ``text`` (see the module docstring); raises FormulaError, nothing else.
+    Results are remembered (a Formula is immutable; a handbook names each formula often)."""
     elements, charge, _ = _Parser(text).run()
     return Formula(text=text, elements=elements, charge=charge)
 

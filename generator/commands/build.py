@@ -229,7 +229,7 @@ def save_record(sources: Path, output: Path, args: argparse.Namespace, stamp: st
         path.parent.mkdir(parents=True, exist_ok=True)
         fd, tmp = tempfile.mkstemp(prefix=".stamp-", dir=path.parent)
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            json.dump(doc, fh, sort_keys=True, separators=(",", ":"))
+            fh.write(json.dumps(doc, sort_keys=True, separators=(",", ":")))  # C encoder
         os.replace(tmp, path)
     except OSError:
         return

@@ -52,16 +52,21 @@ class ChartCache:
         self.rejected = 0
 
     def entry(self, key: str) -> Path:
+        return Path(self.entry_name(key))
+
+    def entry_name(self, key: str) -> str:
+        """The entry's file name as a string (no Path objects: a build looks up thousands)."""
         if not _KEY.fullmatch(key):
             raise ValueError(f"not a chart cache key: {key!r}")
-        return self.folder / key[:2] / f"{key}.svg"
+        return os.path.join(self.folder, key[:2], f"{key}.svg")
 
     def get(self, key: str) -> bytes | None:
         """The SVG stored under ``key``, or None if absent or failing its checks (a failing
         entry is deleted so the next put replaces it)."""
-        path = self.entry(key)
+        path = self.entry_name(key)
         try:
-            data = path.read_bytes()
+            with open(path, "rb") as fh:
+                data = fh.read()
         except OSError:
             self.misses += 1
             return None
@@ -70,7 +75,7 @@ class ChartCache:
             self.rejected += 1
             self.misses += 1
             try:
-                path.unlink()
+                os.unlink(path)
             except OSError:
                 pass
             return None

@@ -12,11 +12,11 @@ page (indexes, audit, conventions, search, changes), all source files.
 from __future__ import annotations
 
 import hashlib
-import json
 from collections.abc import Mapping, Sequence
 
 from generator import __version__
 from generator.compute import Computed
+from generator.exports import json_text
 from generator.site.output import MARKER, MARKER_TEXT
 from generator.site.pages import SiteMeta
 from generator.site.provenance_view import rel_source
@@ -125,4 +125,4 @@ def manifest_doc(files: Mapping[str, bytes], page_paths: Sequence[str], computed
 def manifest_bytes(files: Mapping[str, bytes], page_paths: Sequence[str],
                    computed: Computed, meta: SiteMeta) -> bytes:
     doc = manifest_doc(files, page_paths, computed, meta)
-    return (json.dumps(doc, sort_keys=True, indent=1, ensure_ascii=False) + "\n").encode()
+    return (json_text(doc, 2) + "\n").encode()  # one file entry per line

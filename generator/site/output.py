@@ -27,7 +27,7 @@ import stat
 import tempfile
 from collections.abc import Mapping
 from dataclasses import dataclass
-from pathlib import Path, PurePosixPath
+from pathlib import Path
 
 MARKER = ".thermofolio-site"
 MARKER_TEXT = (b"This folder was written by 'thermofolio build'. The next build replaces it "
@@ -46,11 +46,13 @@ def refusal(out: Path) -> str | None:
     return None
 
 
-def _checked(rel: str) -> PurePosixPath:
-    path = PurePosixPath(rel)
-    if path.is_absolute() or ".." in path.parts or not path.parts:
+def _checked(rel: str) -> str:
+    """``rel`` as a native relative path; refuses absolute paths, ``..``, ``.`` and empty
+    parts (the site's paths are plain ``folder/name`` strings)."""
+    parts = rel.split("/")
+    if rel.startswith("/") or any(p in ("", ".", "..") for p in parts):
         raise ValueError(f"refusing to write outside the site: {rel!r}")
-    return path
+    return os.path.join(*parts)
 
 
 @dataclass(frozen=True)
@@ -79,11 +81,12 @@ def _old_files(out: Path) -> dict[str, int]:
     return found
 
 
-def _same_bytes(path: Path, data: bytes, size: int | None) -> bool:
+def _same_bytes(path: str, data: bytes, size: int | None) -> bool:
     if size is None or size != len(data):
         return False
     try:
-        return path.read_bytes() == data
+        with open(path, "rb") as fh:
+            return fh.read() == data
     except OSError:
         return False
 
@@ -150,11 +153,11 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> WriteResult:
     out = Path(os.path.abspath(out))
     clean_leftovers(out)
     everything = {**files, MARKER: MARKER_TEXT}
-    for rel in everything:
-        _checked(rel)
+    native = {rel: _checked(rel) for rel in everything}
     old = _old_files(out) if out.is_dir() else {}
+    out_s = str(out)
     same = {rel for rel, data in everything.items()
-            if _same_bytes(out.joinpath(*PurePosixPath(rel).parts), data, old.get(rel))}
+            if _same_bytes(os.path.join(out_s, native[rel]), data, old.get(rel))}
     removed = len(old.keys() - everything.keys())
     if len(same) == len(everything) and not removed:
         return WriteResult(rewritten=0, kept=len(same), removed=0, swapped=False)
@@ -167,19 +170,20 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> WriteResult:
         (tmp / MARKER).write_bytes(MARKER_TEXT)
     aside: Path | None = None
     try:
-        made: set[Path] = {tmp}
+        tmp_s = str(tmp)
+        made: set[str] = {tmp_s}
         for rel in sorted(everything):
             if rel == MARKER:
                 continue
-            parts = _checked(rel).parts
-            target = tmp.joinpath(*parts)
-            if target.parent not in made:
-                target.parent.mkdir(parents=True, exist_ok=True)
-                made.add(target.parent)
+            target = os.path.join(tmp_s, native[rel])
+            parent = os.path.dirname(target)
+            if parent not in made:
+                os.makedirs(parent, exist_ok=True)
+                made.add(parent)
             if rel in same:
-                _keep(out.joinpath(*parts), target)
+                _keep(os.path.join(out_s, native[rel]), target)
             else:
-                target.write_bytes(everything[rel])
+                Path(target).write_bytes(everything[rel])
         os.chmod(tmp, 0o755)
         if out.exists() and _exchange(tmp, out):
             shutil.rmtree(tmp, ignore_errors=True)  # tmp now holds the previous site
@@ -205,7 +209,7 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> WriteResult:
                        removed=removed, swapped=True)
 
 
-def _keep(old: Path, new: Path) -> None:
+def _keep(old: str | Path, new: str | Path) -> None:
     """Put the previous site's unchanged file at ``new``, keeping its modification time."""
     try:
         os.link(old, new)

@@ -535,14 +535,14 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
                           changes=getattr(args, "since_diff", None))
     jobs = int(getattr(args, "jobs", 0) or default_jobs())
 
-    def handbook_part():
+    def handbook_part():  # the indexes, audit and other pages, while workers do the sheets
         views, specs, digests = _plan(handbook_chart_entries(computed))
-        return pages.handbook_pages(computed, every, meta, views), specs, digests
+        site_pages = pages.handbook_pages(computed, every, meta, views)
+        return site_pages, render_pages(site_pages), specs, digests
 
     results = results_cache_for(args, root)
-    items, (site_pages, specs, digests), rendered = render_all_items(
+    items, (site_pages, files, specs, digests), rendered = render_all_items(
         computed, every, meta, jobs, handbook_part, results)
-    files = render_pages(site_pages)
     files.update(items.files)
     files.update(handbook_exports(computed, items.texts))
     files.update(assets.static_assets())
@@ -571,11 +571,12 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
               f"{n_warn} warnings, {elapsed:.1f} s -> {out}", file=sys.stderr)
         print(f"CAUTION: {handbook.settings.caution or CAUTION}", file=sys.stderr)
     if hasattr(args, "__dict__"):  # what a later up-to-date build reports (commands.build)
+        renderer = _renderer_name()
         args.build_record = {"pages": len(page_paths), "charts": stats.total,
                              "warnings": sum(f.severity is Severity.WARNING for f in every),
                              "caution": handbook.settings.caution or CAUTION,
                              "cache_entries": [] if cache is None else sorted(
-                                 str(cache.entry(cache_key(d, _renderer_name())))
+                                 cache.entry_name(cache_key(d, renderer))
                                  for d in digests.values())}
     return 0
 
