@@ -188,12 +188,16 @@ def _species_curves(sp: Species, element_refs: Mapping[str, Species], grid: np.n
         digest = digester.parts("species", sp, refs, grid)
         hit = results.get("species", sp.id, digest)
         if isinstance(hit, tuple) and len(hit) == 3:
+            for i, part in enumerate(hit):
+                digester.know(f"{digest}:{i}", part)
             return hit
     fine = chart_grid(sp.Tmin, sp.Tmax) if sp.cp else np.array([T_REF])
     made = (species_functions(sp, grid), formation_functions(sp, refs, grid),
             species_functions(sp, fine))
     if results is not None and digest is not None:
         results.put("species", sp.id, digest, made)
+        for i, part in enumerate(made):
+            digester.know(f"{digest}:{i}", part)
     return made
 
 
@@ -223,6 +227,9 @@ def _reactions(hb: Handbook, grid: np.ndarray, jobs: int, results: ResultStore |
         out[rid] = rr
         if results is not None:
             results.put("reaction", rid, digests[rid], rr)
+    if results is not None:
+        for rid, rr in out.items():
+            digester.know(digests[rid], rr, "grid", "curve", "hess_total")
     return {rid: _current(out[rid], hb.reactions[rid]) for rid in hb.reactions}
 
 

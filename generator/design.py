@@ -411,6 +411,10 @@ def compute_design(computed: Computed, jobs: int = 1, results: ResultStore | Non
         done[rid] = d
         if results is not None:
             results.put("design", rid, digests[rid], d)
+    if results is not None:
+        for rid, d in done.items():
+            digester.know(digests[rid], d, "chart_conversion", "table_conversion", "adiabatic",
+                          "cell")
     return Design(
         reactions={rid: done[rid] for rid in computed.reactions},
         families={name: family_curves(computed, name) for name in family_names(computed)},

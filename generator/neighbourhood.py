@@ -197,6 +197,18 @@ class Digester:
         self._seen[id(obj)] = (obj, d)
         return d
 
+    def know(self, digest: str, obj: object, *parts: str) -> None:
+        """Take as the digest of each named attribute of ``obj`` (or of ``obj`` itself with
+        no names) one derived from ``digest``: the digest of everything it was computed
+        from.  The work is a pure function of those inputs, so this stands for the content
+        without pickling large curves again in every process.  Only objects made for this
+        one result may be named (never one shared with other results)."""
+        for name in parts or ("",):
+            part = getattr(obj, name) if name else obj
+            if part is None or isinstance(part, str | int | float | tuple):
+                continue  # shared singletons and small values keep their content digest
+            self._seen[id(part)] = (part, hashlib.sha256(f"{digest}\0{name}".encode()).digest())
+
     def of_mapping(self, h, name: str, mapping: Mapping) -> None:
         h.update(f"\0{name}\0{len(mapping)}\0".encode())
         for k in sorted(mapping):

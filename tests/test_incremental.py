@@ -146,18 +146,18 @@ import json, os, sys
 from pathlib import Path
 from generator.load import load_handbook
 from generator.compute import compute_handbook
-from generator.neighbourhood import Digester, item_view
+from generator.neighbourhood import digester_for, item_view
 from generator.results_cache import ResultsCache
 from generator.site import pages
 hb, _f = load_handbook(Path(sys.argv[1]))
-cache = ResultsCache(Path(sys.argv[2])) if len(sys.argv) > 2 else None
-c = compute_handbook(hb, results=cache)
-d = Digester()
+c = compute_handbook(hb, results=ResultsCache(Path(sys.argv[2])))
+d = digester_for(c.handbook)  # the build's own: curves known by the digest of their inputs
 print(json.dumps({k: d.view(item_view(c, k), k) for k in pages.item_keys(c)}))
 """
 
 
 def _digests(*args: str, seed: str) -> dict:
+    """Every sheet digest of a build of ``args[0]`` with the results cache ``args[1]``."""
     env = {**os.environ, "PYTHONHASHSEED": seed, "SOURCE_DATE_EPOCH": EPOCH,
            "PYTHONPATH": str(REPO)}
     done = subprocess.run([sys.executable, "-c", _DIGESTS, *args], capture_output=True,
@@ -166,11 +166,11 @@ def _digests(*args: str, seed: str) -> dict:
 
 
 def test_sheet_digests_are_the_same_in_every_process_fresh_or_cached(tmp_path) -> None:
-    """Hash seeds differ between the runs; the third run takes its numbers from the cache
-    the second one filled (shared differently in memory), and must digest the same."""
-    fresh = _digests(str(DEMO), seed="1")
-    assert _digests(str(DEMO), str(tmp_path / "c"), seed="2") == fresh
-    assert _digests(str(DEMO), str(tmp_path / "c"), seed="3") == fresh
+    """Hash seeds differ between the runs; the second run takes its numbers from the cache
+    the first one filled (shared differently in memory), the third fills another one."""
+    fresh = _digests(str(DEMO), str(tmp_path / "a"), seed="1")
+    assert _digests(str(DEMO), str(tmp_path / "a"), seed="2") == fresh
+    assert _digests(str(DEMO), str(tmp_path / "b"), seed="3") == fresh
     assert len(set(fresh.values())) == len(fresh)
 
 

@@ -243,7 +243,8 @@ def _report_up_to_date(record: dict, output: Path, quiet: bool, start: float) ->
         return
     elapsed = time.perf_counter() - start
     n = len(record["files"])
-    print(f"thermofolio build: up to date: {record['pages']} pages, {record['charts']} charts "
+    print(f"thermofolio build: up to date: {record['pages']} pages, 0 of "
+          f"{record.get('sheets', 0)} sheets rendered, {record['charts']} charts "
           f"(0 drawn, {record['charts']} cached), 0 files rewritten, {n} unchanged, "
           f"{record['warnings']} warnings, {elapsed:.1f} s -> {output}", file=sys.stderr)
     print(f"CAUTION: {record['caution']}", file=sys.stderr)

@@ -563,8 +563,8 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
         n_warn = sum(f.severity is Severity.WARNING for f in every)
         elapsed = time.perf_counter() - start_time
         bad = f", {stats.rejected} bad cache entries redrawn" if stats.rejected else ""
-        n_items = len(items.page_paths)
-        print(f"thermofolio build: {len(page_paths)} pages, {rendered} of {n_items} sheets "
+        print(f"thermofolio build: {len(page_paths)} pages, {rendered} of "
+              f"{len(items.page_paths)} sheets "
               f"rendered, {stats.total} charts "
               f"({stats.drawn} drawn, {stats.cached} cached{bad}), "
               f"{result.rewritten} files rewritten, {result.kept} unchanged, "
@@ -572,7 +572,8 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
         print(f"CAUTION: {handbook.settings.caution or CAUTION}", file=sys.stderr)
     if hasattr(args, "__dict__"):  # what a later up-to-date build reports (commands.build)
         renderer = _renderer_name()
-        args.build_record = {"pages": len(page_paths), "charts": stats.total,
+        args.build_record = {"pages": len(page_paths), "sheets": len(items.page_paths),
+                             "charts": stats.total,
                              "warnings": sum(f.severity is Severity.WARNING for f in every),
                              "caution": handbook.settings.caution or CAUTION,
                              "cache_entries": [] if cache is None else sorted(
