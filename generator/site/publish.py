@@ -443,13 +443,28 @@ def render_sheet(computed: Computed, key: str, findings: Sequence[Finding],
     return batch, True
 
 
-def _render_chunk(shared: tuple, keys: Sequence[str]) -> tuple[ItemBatch, int]:
+HANDBOOK_TASK = "handbook pages"
+
+
+def handbook_batch(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta
+                   ) -> ItemBatch:
+    """The indexes, audit, reference, family and element pages and their charts."""
+    views, specs, digests = _plan(handbook_chart_entries(computed))
+    site_pages = pages.handbook_pages(computed, findings, meta, views)
+    return ItemBatch(render_pages(site_pages), [p.path for p in site_pages], specs, digests,
+                     {})
+
+
+def _render_task(shared: tuple, task: str | Sequence[str]) -> tuple[ItemBatch, int]:
+    """One task of render_site: the handbook pages, or the sheets of some items."""
     computed, findings, meta, results = shared
+    if task == HANDBOOK_TASK:
+        return handbook_batch(computed, findings, meta), 0
     by_item = _by_item(findings)
     digester = digester_for(computed.handbook)
     merged = ItemBatch({}, [], {}, {}, {})
     rendered = 0
-    for key in keys:
+    for key in task:
         batch, fresh = render_sheet(computed, key, by_item.get(key.partition(":")[2], []),
                                     meta, results, digester)
         rendered += fresh
@@ -465,24 +480,22 @@ def _merge(into: ItemBatch, b: ItemBatch) -> None:
     into.texts.update(b.texts)
 
 
-def render_all_items(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
-                     jobs: int, meanwhile=None, results: ResultsCache | None = None
-                     ) -> tuple[ItemBatch, object, int]:
-    """Every item's sheet (render_sheet), split over ``jobs`` forked workers
-    (generator.parallel) when there are at least parallel.MIN_ITEMS items.  ``meanwhile()``
-    runs in this process while the workers render; (sheets, its result, sheets rendered
-    now rather than taken from ``results``)."""
+def render_site(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
+                jobs: int, results: ResultsCache | None = None
+                ) -> tuple[ItemBatch, ItemBatch, int]:
+    """Every page: (the sheets (render_sheet), the handbook pages, sheets rendered now rather
+    than taken from ``results``).  With at least parallel.MIN_ITEMS items the work is split
+    over ``jobs`` forked workers (generator.parallel): the handbook pages as one task, the
+    sheets as 2 × ``jobs`` more."""
     keys = pages.item_keys(computed)
     n = 2 * jobs if jobs > 1 and len(keys) >= parallel.MIN_ITEMS else 1
-    chunks = [keys[i::n] for i in range(n)]
-    parts, extra = parallel.fork_map(_render_chunk, chunks, jobs,
-                                     (computed, findings, meta, results), 2, meanwhile)
-    if len(parts) == 1:
-        return parts[0][0], extra, parts[0][1]
-    merged = ItemBatch({}, [], {}, {}, {})
-    for batch, _n in parts:
-        _merge(merged, batch)
-    return merged, extra, sum(n for _b, n in parts)
+    tasks: list = [HANDBOOK_TASK] + [tuple(keys[i::n]) for i in range(n)]
+    parts, _ = parallel.fork_map(_render_task, tasks, jobs if n > 1 else 1,
+                                 (computed, findings, meta, results), 2)
+    sheets = ItemBatch({}, [], {}, {}, {})
+    for batch, _n in parts[1:]:
+        _merge(sheets, batch)
+    return sheets, parts[0][0], sum(n for _b, n in parts)
 
 
 def default_jobs() -> int:
@@ -535,20 +548,15 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
                           changes=getattr(args, "since_diff", None))
     jobs = int(getattr(args, "jobs", 0) or default_jobs())
 
-    def handbook_part():  # the indexes, audit and other pages, while workers do the sheets
-        views, specs, digests = _plan(handbook_chart_entries(computed))
-        site_pages = pages.handbook_pages(computed, every, meta, views)
-        return site_pages, render_pages(site_pages), specs, digests
-
     results = results_cache_for(args, root)
-    items, (site_pages, files, specs, digests), rendered = render_all_items(
-        computed, every, meta, jobs, handbook_part, results)
+    items, whole, rendered = render_site(computed, every, meta, jobs, results)
+    files = dict(whole.files)
     files.update(items.files)
     files.update(handbook_exports(computed, items.texts))
     files.update(assets.static_assets())
-    specs.update(items.specs)
-    digests.update(items.digests)
-    page_paths = sorted([p.path for p in site_pages] + items.page_paths)
+    specs = {**whole.specs, **items.specs}
+    digests = {**whole.digests, **items.digests}
+    page_paths = sorted(whole.page_paths + items.page_paths)
     cache = chart_cache_for(args, root)
     charts, stats = draw_charts(specs, digests, cache, jobs, quiet=quiet, start=start_time)
     files.update(charts)
