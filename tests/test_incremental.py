@@ -285,3 +285,21 @@ def test_damaged_results_are_redone_never_used(tmp_path, capsys) -> None:
     clean = tmp_path / "clean"
     _build(src, clean, capsys, "--no-cache")
     assert _tree(out) == _tree(clean)
+
+
+def test_source_files_read_from_the_cache_equal_a_fresh_reading(tmp_path) -> None:
+    """The demo and every bad-input case: the second load takes each species and reaction
+    file from the results cache and must give the same model and the same findings."""
+    from conftest import BAD, assemble
+
+    cases = [DEMO] + [assemble(tmp_path / c.name, c) for c in sorted(BAD.iterdir())
+                      if c.is_dir()]
+    for i, root in enumerate(cases):
+        cache = ResultsCache(tmp_path / f"cache-{i}")
+        fresh = load_handbook(root)
+        first = load_handbook(root, cache)
+        again = load_handbook(root, cache)
+        for hb, findings in (first, again):
+            assert [f.format() for f in findings] == [f.format() for f in fresh[1]], root
+            assert canonical_pickle(hb) == canonical_pickle(fresh[0]), root
+        assert cache.hits > 0 or not list(root.glob("*/*.yaml")), root

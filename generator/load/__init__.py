@@ -7,8 +7,10 @@ equation, element and charge balance, and ``combine:`` definitions (Hess's law).
 
 from __future__ import annotations
 
+import hashlib
 import os
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from generator.diagnostics import Finding, Location, Severity, error
 from generator.load.fields import FileReader
@@ -18,7 +20,10 @@ from generator.load.resolve import resolve_reactions
 from generator.load.settings import read_settings
 from generator.load.species import read_species
 from generator.model import Handbook, Reference, Species
-from generator.yamlsource import read_yaml_file
+from generator.yamlsource import MAX_FILE_BYTES, read_yaml_file
+
+if TYPE_CHECKING:
+    from generator.results_cache import ResultStore
 
 __all__ = ["load_handbook", "display_path"]
 
@@ -38,16 +43,16 @@ def _yaml_files(folder: Path) -> list[Path]:
     return sorted(p for p in folder.iterdir() if p.suffix in (".yaml", ".yml") and p.is_file())
 
 
-def _read_items(folder: Path, read, kind: str, findings: list[Finding]) -> dict:
-    """One item per YAML file in ``folder``, by id; a second file with an id is an error."""
+def _read_items(folder: Path, read, kind: str, findings: list[Finding],
+               results: ResultStore | None = None) -> dict:
+    """One item per YAML file in ``folder``, by id; a second file with an id is an error.
+    With ``results``, each file's item and findings are kept under the digest of its
+    path and bytes (the reader sees nothing else), and reused while they are unchanged."""
     items: dict = {}
     for file in _yaml_files(folder):
         path = display_path(file)
-        doc, fs = read_yaml_file(file, path)
-        findings += fs
-        if doc is None and fs:
-            continue
-        item = read(FileReader(path, findings), doc)
+        item, own = _read_item(file, path, read, kind, results)
+        findings += own
         if item is None:
             continue
         if item.id in items:
@@ -59,8 +64,36 @@ def _read_items(folder: Path, read, kind: str, findings: list[Finding]) -> dict:
     return items
 
 
-def load_handbook(root: Path) -> tuple[Handbook | None, list[Finding]]:
-    """Read and check every source file under ``root``; the handbook is None on any error."""
+def _read_item(file: Path, path: str, read, kind: str, results: ResultStore | None):
+    """(item or None, the file's findings)."""
+    digest = None
+    if results is not None:
+        try:
+            raw = file.read_bytes()
+        except OSError:
+            raw = None
+        if raw is not None and len(raw) <= MAX_FILE_BYTES:
+            h = hashlib.sha256(f"{kind}\0{path}\0".encode())
+            h.update(raw)
+            digest = h.hexdigest()
+            hit = results.get("source", f"{kind}:{path}", digest)
+            if isinstance(hit, tuple) and len(hit) == 2:
+                return hit
+    doc, own = read_yaml_file(file, path)
+    own = list(own)
+    item = None
+    if doc is not None or not own:
+        item = read(FileReader(path, own), doc)
+    if results is not None and digest is not None:
+        results.put("source", f"{kind}:{path}", digest, (item, own))
+    return item, own
+
+
+def load_handbook(root: Path, results: ResultStore | None = None
+                  ) -> tuple[Handbook | None, list[Finding]]:
+    """Read and check every source file under ``root``; the handbook is None on any error.
+    ``results`` (generator.results_cache) keeps each species and reaction file's reading
+    between builds."""
     findings: list[Finding] = []
     root = Path(root)
     if not root.is_dir():
@@ -101,9 +134,9 @@ def load_handbook(root: Path) -> tuple[Handbook | None, list[Finding]]:
                 references[ref.key] = ref
 
     species: dict[str, Species] = _read_items(root / "species", read_species, "species",
-                                              findings)
+                                              findings, results)
     raw_reactions: dict[str, RawReaction] = _read_items(root / "reactions", read_reaction,
-                                                        "reaction", findings)
+                                                        "reaction", findings, results)
 
     reactions = resolve_reactions(raw_reactions, species, findings)
     if settings is not None:
