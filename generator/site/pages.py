@@ -881,32 +881,47 @@ def search_entries(computed: Computed) -> dict:
     return {"species": species, "reactions": reactions}
 
 
+HANDBOOK_PARTS = ("species index", "reactions index", "audit", "other")
+
+
 def handbook_pages(computed: Computed, findings: Sequence[Finding], meta: SiteMeta,
-                   charts: Mapping[str, Sequence[ChartView]]) -> list[Page]:
-    """The pages about the whole handbook: indexes, audit, design and reference pages."""
+                   charts: Mapping[str, Sequence[ChartView]], part: str | None = None
+                   ) -> list[Page]:
+    """The pages about the whole handbook: indexes, audit, design and reference pages; with
+    ``part`` (one of HANDBOOK_PARTS) only that share of them, so they can be built side by
+    side."""
     from generator.site.design_pages import design_pages
     from generator.site.provenance_view import changes_context
 
     site = _site(computed, meta)
-    uses = reference_uses(computed)
     has_changes = meta.changes is not None
-    pages = [
-        Page("index.html", "index.html", index_context(computed, site, findings, has_changes)),
-        Page("species.html", "species_index.html", species_index(computed, site)),
-        Page("reactions.html", "reactions_index.html", reactions_index(computed, site)),
-        Page("references.html", "references_index.html",
-             references_index(computed, site, uses)),
-        Page("conventions.html", "conventions.html", conventions_context(computed, site)),
-        Page("audit.html", "audit.html", audit_context(computed, site, findings, has_changes)),
-        Page("search.html", "search.html", search_context(site)),
-    ]
-    if has_changes:
-        pages.append(Page("changes.html", "changes.html",
-                          changes_context(computed, meta.changes, site)))
-    pages += design_pages(computed, site, charts)
-    for ref in sorted(computed.handbook.references):
-        pages.append(Page(f"references/{ref}.html", "reference.html",
-                          reference_context(computed, ref, site, uses)))
+    pages: list[Page] = []
+    if part in (None, "other"):
+        uses = reference_uses(computed)
+        pages.append(Page("index.html", "index.html",
+                          index_context(computed, site, findings, has_changes)))
+    if part in (None, "species index"):
+        pages.append(Page("species.html", "species_index.html", species_index(computed, site)))
+    if part in (None, "reactions index"):
+        pages.append(Page("reactions.html", "reactions_index.html",
+                          reactions_index(computed, site)))
+    if part in (None, "other"):
+        pages += [Page("references.html", "references_index.html",
+                       references_index(computed, site, uses)),
+                  Page("conventions.html", "conventions.html",
+                       conventions_context(computed, site))]
+    if part in (None, "audit"):
+        pages.append(Page("audit.html", "audit.html",
+                          audit_context(computed, site, findings, has_changes)))
+    if part in (None, "other"):
+        pages.append(Page("search.html", "search.html", search_context(site)))
+        if has_changes:
+            pages.append(Page("changes.html", "changes.html",
+                              changes_context(computed, meta.changes, site)))
+        pages += design_pages(computed, site, charts)
+        for ref in sorted(computed.handbook.references):
+            pages.append(Page(f"references/{ref}.html", "reference.html",
+                              reference_context(computed, ref, site, uses)))
     return pages
 
 

@@ -443,23 +443,22 @@ def render_sheet(computed: Computed, key: str, findings: Sequence[Finding],
     return batch, True
 
 
-HANDBOOK_TASK = "handbook pages"
-
-
-def handbook_batch(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta
-                   ) -> ItemBatch:
-    """The indexes, audit, reference, family and element pages and their charts."""
-    views, specs, digests = _plan(handbook_chart_entries(computed))
-    site_pages = pages.handbook_pages(computed, findings, meta, views)
+def handbook_batch(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
+                   part: str | None = None) -> ItemBatch:
+    """The indexes, audit, reference, family and element pages and their charts (only the
+    share ``part`` of pages.HANDBOOK_PARTS, if given)."""
+    views, specs, digests = ({}, {}, {}) if part not in (None, "other") else \
+        _plan(handbook_chart_entries(computed))
+    site_pages = pages.handbook_pages(computed, findings, meta, views, part)
     return ItemBatch(render_pages(site_pages), [p.path for p in site_pages], specs, digests,
                      {})
 
 
-def _render_task(shared: tuple, task: str | Sequence[str]) -> tuple[ItemBatch, int]:
-    """One task of render_site: the handbook pages, or the sheets of some items."""
+def _render_task(shared: tuple, task: str | Sequence[str] | None) -> tuple[ItemBatch, int]:
+    """One task of render_site: a share of the handbook pages, or some items' sheets."""
     computed, findings, meta, results = shared
-    if task == HANDBOOK_TASK:
-        return handbook_batch(computed, findings, meta), 0
+    if task is None or isinstance(task, str):  # None: every handbook page
+        return handbook_batch(computed, findings, meta, task), 0
     by_item = _by_item(findings)
     digester = digester_for(computed.handbook)
     merged = ItemBatch({}, [], {}, {}, {})
@@ -485,17 +484,18 @@ def render_site(computed: Computed, findings: Sequence[Finding], meta: pages.Sit
                 ) -> tuple[ItemBatch, ItemBatch, int]:
     """Every page: (the sheets (render_sheet), the handbook pages, sheets rendered now rather
     than taken from ``results``).  With at least parallel.MIN_ITEMS items the work is split
-    over ``jobs`` forked workers (generator.parallel): the handbook pages as one task, the
-    sheets as 2 × ``jobs`` more."""
+    over ``jobs`` forked workers (generator.parallel): the handbook pages as four tasks
+    (pages.HANDBOOK_PARTS), the sheets as 2 × ``jobs`` more."""
     keys = pages.item_keys(computed)
     n = 2 * jobs if jobs > 1 and len(keys) >= parallel.MIN_ITEMS else 1
-    tasks: list = [HANDBOOK_TASK] + [tuple(keys[i::n]) for i in range(n)]
+    whole: list = list(pages.HANDBOOK_PARTS) if n > 1 else [None]
+    tasks: list = whole + [tuple(keys[i::n]) for i in range(n)]
     parts, _ = parallel.fork_map(_render_task, tasks, jobs if n > 1 else 1,
                                  (computed, findings, meta, results), 2)
-    sheets = ItemBatch({}, [], {}, {}, {})
-    for batch, _n in parts[1:]:
-        _merge(sheets, batch)
-    return sheets, parts[0][0], sum(n for _b, n in parts)
+    handbook, sheets = ItemBatch({}, [], {}, {}, {}), ItemBatch({}, [], {}, {}, {})
+    for i, (batch, _n) in enumerate(parts):
+        _merge(handbook if i < len(whole) else sheets, batch)
+    return sheets, handbook, sum(n for _b, n in parts)
 
 
 def default_jobs() -> int:
