@@ -68,7 +68,6 @@ def _tree_memory(pid: int) -> tuple[int, int]:
 
 
 STUB = """
-import sys
 import importlib
 publish = importlib.import_module("generator.site.publish")
 
@@ -79,8 +78,8 @@ def stub_render_many(specs, jobs=1):
 
 
 publish.render_many = stub_render_many
-from generator.cli import main
-sys.exit(main(sys.argv[1:]))
+from generator.cli import run
+run()  # the thermofolio command's own exit
 """
 
 

@@ -1,7 +1,5 @@
 """`python -m generator` is the `thermofolio` command."""
 
-import sys
+from generator.cli import run
 
-from generator.cli import main
-
-sys.exit(main())
+run()

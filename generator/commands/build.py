@@ -38,9 +38,11 @@ def register(sub) -> None:
                    help="processes computing reactions, rendering sheets and drawing charts "
                    "(default: the number of cores)")
     p.add_argument("--cache", default=None, metavar="DIR",
-                   help="chart cache folder (default: .thermofolio-cache beside SOURCES)")
+                   help="cache folder for charts and per-item results (default: "
+                   ".thermofolio-cache beside SOURCES)")
     p.add_argument("--no-cache", action="store_true",
-                   help="draw every chart; neither read nor write the chart cache")
+                   help="draw every chart and compute and render everything; neither read "
+                   "nor write the chart and results caches")
     p.add_argument("--since", default=None, metavar="REV",
                    help="add a page of the changes since git revision REV of the sources")
     p.set_defaults(run=run)
