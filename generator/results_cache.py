@@ -23,7 +23,6 @@ import os
 import pickle
 import re
 import sys
-import tempfile
 from pathlib import Path
 from typing import Any, Protocol
 
@@ -103,6 +102,7 @@ class ResultsCache:
     def __init__(self, folder: Path, salt: str | None = None) -> None:
         self.folder = Path(folder) / FOLDER
         self.salt = code_identity() if salt is None else salt
+        self._made: set[str] = set()
         self.hits = 0
         self.misses = 0
         self.rejected = 0
@@ -111,16 +111,19 @@ class ResultsCache:
         return hashlib.sha256(f"{self.salt}\0{digest}".encode()).hexdigest()
 
     def entry(self, kind: str, item: str) -> Path:
+        return Path(self._entry(kind, item))
+
+    def _entry(self, kind: str, item: str) -> str:
         if not re.fullmatch(r"[a-z]+", kind):
             raise ValueError(f"not a result kind: {kind!r}")
         name = hashlib.sha256(item.encode("utf-8")).hexdigest()[:40]
-        return self.folder / kind / f"{name}.pickle"
+        return os.path.join(self.folder, kind, f"{name}.pickle")
 
     def get(self, kind: str, item: str, digest: str):
         """The result stored for ``item`` under ``digest``, or None."""
-        path = self.entry(kind, item)
         try:
-            data = path.read_bytes()
+            with open(self._entry(kind, item), "rb") as fh:
+                data = fh.read()
         except OSError:
             self.misses += 1
             return None
@@ -144,13 +147,22 @@ class ResultsCache:
         return result
 
     def put(self, kind: str, item: str, digest: str, result) -> None:
-        path = self.entry(kind, item)
+        path = self._entry(kind, item)
         payload = pickle.dumps(result, protocol=5)
         head = (f"thermofolio-result 1 {self.key(digest)} "
                 f"{hashlib.sha256(payload).hexdigest()} {len(payload)}\n").encode()
+        folder = os.path.dirname(path)
+        # This process's own temporary name (no random names: a build puts thousands).
+        tmp = os.path.join(folder, f".tmp-{os.getpid()}-{os.path.basename(path)}")
         try:
-            path.parent.mkdir(parents=True, exist_ok=True)
-            fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=path.parent)
+            if folder not in self._made:
+                os.makedirs(folder, exist_ok=True)
+                self._made.add(folder)
+            try:
+                fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+            except FileExistsError:  # left by a killed process that had this pid
+                os.unlink(tmp)
+                fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
             try:
                 with os.fdopen(fd, "wb") as fh:
                     fh.write(head)
