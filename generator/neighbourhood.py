@@ -119,7 +119,7 @@ def item_view(computed: Computed, key: str) -> Computed:
                        from_memory=(), unreviewed=(), uncited_references=(), findings=())
         prov = replace(prov, **{table: {item: own[item]} if item in own else {}})
     net = computed.network
-    if net is not None:
+    if net is not None:  # the whole-network figures (chi², skipped lines) are the audit's
         net = replace(net, observations=tuple(_by_item(net.observations).get(item, ())),
                       reconciled={item: net.reconciled[item]} if item in net.reconciled else {},
                       fixed={item: net.fixed[item]} if item in net.fixed else {},
