@@ -19,6 +19,7 @@ from generator.diagnostics import Finding
 from generator.model import Handbook, Reaction, Species
 from generator.neighbourhood import Digester, digester_for, reaction_handbook
 from generator.parallel import fork_map
+from generator.results_cache import kept_or_made
 from generator.thermo.constants import T_REF
 from generator.thermo.reactions import (
     ReactionFunctions,
@@ -215,18 +216,8 @@ def _reactions(hb: Handbook, grid: np.ndarray, jobs: int, results: ResultStore |
     cuts = {rid: reaction_handbook(hb, rid) for rid in hb.reactions}
     digester = digester_for(hb)
     digests = {rid: digester.cut(cut, "reaction", rid, grid) for rid, cut in cuts.items()}
-    out: dict[str, ReactionResult] = {}
-    if results is not None:
-        for rid, digest in digests.items():
-            hit = results.get("reaction", rid, digest)
-            if isinstance(hit, ReactionResult):
-                out[rid] = hit
-    todo = [rid for rid in hb.reactions if rid not in out]
-    fresh, _ = fork_map(_reaction_from_cut, todo, jobs, (cuts, grid))
-    for rid, rr in zip(todo, fresh, strict=True):
-        out[rid] = rr
-        if results is not None:
-            results.put("reaction", rid, digests[rid], rr)
+    out = kept_or_made(results, "reaction", digests, ReactionResult, lambda todo: fork_map(
+        _reaction_from_cut, todo, jobs, (cuts, grid))[0])
     if results is not None:
         for rid, rr in out.items():
             digester.know(digests[rid], rr, "grid", "curve", "hess_total")

@@ -395,22 +395,13 @@ def compute_design(computed: Computed, jobs: int = 1, results: ResultStore | Non
     then the families and element ladders."""
     from generator.neighbourhood import digester_for, reaction_view
     from generator.parallel import fork_map
+    from generator.results_cache import kept_or_made
 
     views = {rid: reaction_view(computed, rid) for rid in computed.reactions}
     digester = digester_for(computed.handbook)
     digests = {rid: digester.view(v, "design", rid) for rid, v in views.items()}
-    done: dict[str, DesignResult] = {}
-    if results is not None:
-        for rid, digest in digests.items():
-            hit = results.get("design", rid, digest)
-            if isinstance(hit, DesignResult):
-                done[rid] = hit
-    todo = [rid for rid in computed.reactions if rid not in done]
-    fresh, _ = fork_map(_reaction_design, todo, jobs, views)
-    for rid, d in zip(todo, fresh, strict=True):
-        done[rid] = d
-        if results is not None:
-            results.put("design", rid, digests[rid], d)
+    done = kept_or_made(results, "design", digests, DesignResult, lambda todo: fork_map(
+        _reaction_design, todo, jobs, views)[0])
     if results is not None:
         for rid, d in done.items():
             digester.know(digests[rid], d, "chart_conversion", "table_conversion", "adiabatic",

@@ -23,6 +23,7 @@ import os
 import pickle
 import re
 import sys
+from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import Any, Protocol
 
@@ -152,27 +153,52 @@ class ResultsCache:
         head = (f"thermofolio-result 1 {self.key(digest)} "
                 f"{hashlib.sha256(payload).hexdigest()} {len(payload)}\n").encode()
         folder = os.path.dirname(path)
-        # This process's own temporary name (no random names: a build puts thousands).
-        tmp = os.path.join(folder, f".tmp-{os.getpid()}-{os.path.basename(path)}")
         try:
             if folder not in self._made:
                 os.makedirs(folder, exist_ok=True)
                 self._made.add(folder)
-            try:
-                fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
-            except FileExistsError:  # left by a killed process that had this pid
-                os.unlink(tmp)
-                fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
-            try:
-                with os.fdopen(fd, "wb") as fh:
-                    fh.write(head)
-                    fh.write(payload)
-                os.replace(tmp, path)
-            except BaseException:
-                try:
-                    os.unlink(tmp)
-                except OSError:
-                    pass
-                raise
+            write_atomically(path, (head, payload))
         except OSError:
             return
+
+
+def write_atomically(path: str, chunks) -> None:
+    """Write ``chunks`` (bytes) to a temporary file beside ``path`` and rename it into
+    place, so a reader sees no file or a whole one.  The temporary name is this process's
+    own (no random names: a build writes thousands of entries)."""
+    tmp = os.path.join(os.path.dirname(path), f".tmp-{os.getpid()}-{os.path.basename(path)}")
+    try:
+        fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+    except FileExistsError:  # left by a killed process that had this pid
+        os.unlink(tmp)
+        fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            for chunk in chunks:
+                fh.write(chunk)
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+
+
+def kept_or_made(results: ResultStore | None, kind: str, digests: Mapping[str, str],
+                 result_type: type, make: Callable[[list[str]], Sequence]) -> dict:
+    """Each item's result (items: the keys of ``digests``, in order): from ``results`` when
+    an entry of ``result_type`` is kept under the item's digest, else from
+    ``make(items still to do)`` and stored back."""
+    done: dict = {}
+    if results is not None:
+        for item, digest in digests.items():
+            hit = results.get(kind, item, digest)
+            if isinstance(hit, result_type):
+                done[item] = hit
+    todo = [item for item in digests if item not in done]
+    for item, result in zip(todo, make(todo), strict=True):
+        done[item] = result
+        if results is not None:
+            results.put(kind, item, digests[item], result)
+    return {item: done[item] for item in digests}

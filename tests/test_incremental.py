@@ -98,7 +98,8 @@ def test_every_sheet_from_its_neighbourhood_equals_the_sheet_from_the_whole(demo
         assert whole.files == cut.files, key
         assert whole.digests == cut.digests, key
         assert whole.texts == cut.texts, key
-        assert len(view.species) < len(computed.species) or key == "species:oxygen"
+        if key.startswith("reaction:"):  # a real cut, not the whole handbook again
+            assert len(view.handbook.species) < len(computed.handbook.species), key
 
 
 def test_every_reaction_from_its_cut_equals_the_reaction_from_the_whole(demo) -> None:

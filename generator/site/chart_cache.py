@@ -14,8 +14,9 @@ from __future__ import annotations
 import hashlib
 import os
 import re
-import tempfile
 from pathlib import Path
+
+from generator.results_cache import write_atomically
 
 DEFAULT_FOLDER = ".thermofolio-cache"
 _TRAILER = re.compile(rb"<!-- thermofolio-cache sha256=([0-9a-f]{64}) bytes=([0-9]+) -->\n\Z")
@@ -85,23 +86,12 @@ class ChartCache:
     def put(self, key: str, svg: bytes) -> None:
         """Store ``svg`` under ``key`` atomically; a cache that cannot be written is skipped
         (the build still publishes the freshly drawn chart)."""
-        path = self.entry(key)
+        path = self.entry_name(key)
         trailer = (f"<!-- thermofolio-cache sha256={hashlib.sha256(svg).hexdigest()} "
                    f"bytes={len(svg)} -->\n").encode()
         try:
-            path.parent.mkdir(parents=True, exist_ok=True)
-            fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=path.parent)
-            try:
-                with os.fdopen(fd, "wb") as fh:
-                    fh.write(svg)
-                    fh.write(trailer)
-                os.replace(tmp, path)
-            except BaseException:
-                try:
-                    os.unlink(tmp)
-                except OSError:
-                    pass
-                raise
+            os.makedirs(os.path.dirname(path), exist_ok=True)
+            write_atomically(path, (svg, trailer))
         except OSError:
             return
 
