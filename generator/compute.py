@@ -217,7 +217,7 @@ def _reactions(hb: Handbook, grid: np.ndarray, jobs: int, results: ResultStore |
     digester = digester_for(hb)
     digests = {rid: digester.cut(cut, "reaction", rid, grid) for rid, cut in cuts.items()}
     out = kept_or_made(results, "reaction", digests, ReactionResult, lambda todo: fork_map(
-        _reaction_from_cut, todo, jobs, (cuts, grid))[0])
+        _reaction_from_cut, todo, jobs, (cuts, grid)))
     if results is not None:
         for rid, rr in out.items():
             digester.know(digests[rid], rr, "grid", "curve", "hess_total")
@@ -238,7 +238,8 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None, jobs: int
     ``jobs`` > 1 the reactions are computed by that many forked processes (the same
     numbers: each reaction is a pure function of its species).  ``results`` (a
     generator.results_cache.ResultsCache, or anything with its get and put) keeps each
-    reaction's engine and design numbers between builds; this module does no I/O itself."""
+    species' curves and each reaction's engine and design numbers between builds; this
+    module does no I/O itself."""
     from generator.findings import engine_checks
     from generator.network import network_findings, solve_network
     from generator.provenance import provenance, today_from_environment

@@ -401,7 +401,7 @@ def compute_design(computed: Computed, jobs: int = 1, results: ResultStore | Non
     digester = digester_for(computed.handbook)
     digests = {rid: digester.view(v, "design", rid) for rid, v in views.items()}
     done = kept_or_made(results, "design", digests, DesignResult, lambda todo: fork_map(
-        _reaction_design, todo, jobs, views)[0])
+        _reaction_design, todo, jobs, views))
     if results is not None:
         for rid, d in done.items():
             digester.know(digests[rid], d, "chart_conversion", "table_conversion", "adiabatic",

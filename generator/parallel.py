@@ -42,29 +42,24 @@ def _run_chunk(items: Sequence) -> list:
 
 
 def fork_map(fn: Callable[[Any, Any], Any], items: Sequence, jobs: int, shared: Any = None,
-             min_items: int | None = None, meanwhile: Callable[[], Any] | None = None
-             ) -> tuple[list, Any]:
-    """``([fn(shared, x) for x in items], meanwhile())``; ``meanwhile`` runs in this process
-    while the workers work (its result is returned beside theirs).  ``min_items`` defaults
-    to MIN_ITEMS, read at each call."""
+             min_items: int | None = None) -> list:
+    """``[fn(shared, x) for x in items]``; ``min_items`` defaults to MIN_ITEMS, read at each
+    call."""
     global _TASK
     items = list(items)
     if min_items is None:
         min_items = MIN_ITEMS
     if jobs < 2 or len(items) < min_items or not can_fork():
-        results = [fn(shared, x) for x in items]
-        return results, meanwhile() if meanwhile else None
+        return [fn(shared, x) for x in items]
     n_chunks = min(len(items), 4 * jobs)
     chunks = [items[i::n_chunks] for i in range(n_chunks)]  # interleaved: even loads
     _TASK = (fn, shared)
     try:
         with multiprocessing.get_context("fork").Pool(jobs) as pool:
-            pending = pool.map_async(_run_chunk, chunks)
-            extra = meanwhile() if meanwhile else None
-            parts = pending.get()
+            parts = pool.map(_run_chunk, chunks)
     finally:
         _TASK = None
     results: list = [None] * len(items)
     for i, part in enumerate(parts):
         results[i::n_chunks] = part
-    return results, extra
+    return results

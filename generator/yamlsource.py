@@ -293,6 +293,14 @@ def _parse_pure(text: str, path: str) -> tuple[Any, list[Finding]]:
 
 def read_yaml_file(file: Path, display_path: str) -> tuple[Any, list[Finding]]:
     """Read a YAML file with the size limit and UTF-8 check, then parse it strictly."""
+    raw, findings = read_source_bytes(file, display_path)
+    if raw is None:
+        return None, findings
+    return parse_yaml_bytes(raw, display_path)
+
+
+def read_source_bytes(file: Path, display_path: str) -> tuple[bytes | None, list[Finding]]:
+    """A source file's bytes, or None and the finding (unreadable, over MAX_FILE_BYTES)."""
     try:
         size = file.stat().st_size
     except OSError as exc:
@@ -306,11 +314,16 @@ def read_yaml_file(file: Path, display_path: str) -> tuple[Any, list[Finding]]:
             )
         ]
     try:
-        raw = file.read_bytes()
+        return file.read_bytes(), []
+    except OSError as exc:
+        return None, [error("io", f"cannot read file: {exc.strerror}", Location(display_path))]
+
+
+def parse_yaml_bytes(raw: bytes, display_path: str) -> tuple[Any, list[Finding]]:
+    """Decode (UTF-8, BOM allowed) and parse strictly."""
+    try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         line = raw[: exc.start].count(b"\n") + 1
         return None, [error("encoding", "file is not valid UTF-8", Location(display_path, line, 1))]
-    except OSError as exc:
-        return None, [error("io", f"cannot read file: {exc.strerror}", Location(display_path))]
     return parse_yaml_text(text, display_path)

@@ -15,19 +15,17 @@ def _square_and_pid(shared, x):
 
 def test_results_keep_the_order_of_the_items_whatever_the_split():
     items = list(range(23))
-    one, _ = parallel.fork_map(_square_and_pid, items, 1, 3, min_items=2)
-    many, extra = parallel.fork_map(_square_and_pid, items, 3, 3, min_items=2,
-                                     meanwhile=lambda: "here")
+    one = parallel.fork_map(_square_and_pid, items, 1, 3, min_items=2)
+    many = parallel.fork_map(_square_and_pid, items, 3, 3, min_items=2)
     assert [r for r, _pid in one] == [3 * x * x for x in items]
     assert [r for r, _pid in many] == [r for r, _pid in one]
-    assert extra == "here"
     if parallel.can_fork():
         assert os.getpid() not in {pid for _r, pid in many}  # really done elsewhere
     assert {pid for _r, pid in one} == {os.getpid()}
 
 
 def test_below_the_threshold_everything_stays_in_this_process():
-    results, _ = parallel.fork_map(_square_and_pid, [1, 2], 4, 1, min_items=5)
+    results = parallel.fork_map(_square_and_pid, [1, 2], 4, 1, min_items=5)
     assert {pid for _r, pid in results} == {os.getpid()}
 
 
@@ -50,7 +48,7 @@ def test_a_process_running_other_threads_does_not_fork():
     helper.start()
     try:
         assert not parallel.can_fork()
-        results, _ = parallel.fork_map(_square_and_pid, range(6), 2, 1, min_items=2)
+        results = parallel.fork_map(_square_and_pid, range(6), 2, 1, min_items=2)
         assert {pid for _r, pid in results} == {os.getpid()}
     finally:
         stop.set()

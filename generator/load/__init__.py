@@ -20,7 +20,7 @@ from generator.load.resolve import resolve_reactions
 from generator.load.settings import read_settings
 from generator.load.species import read_species
 from generator.model import Handbook, Reference, Species
-from generator.yamlsource import MAX_FILE_BYTES, read_yaml_file
+from generator.yamlsource import parse_yaml_bytes, read_source_bytes, read_yaml_file
 
 if TYPE_CHECKING:
     from generator.results_cache import ResultStore
@@ -66,20 +66,18 @@ def _read_items(folder: Path, read, kind: str, findings: list[Finding],
 
 def _read_item(file: Path, path: str, read, kind: str, results: ResultStore | None):
     """(item or None, the file's findings)."""
+    raw, own = read_source_bytes(file, path)
+    if raw is None:
+        return None, own
     digest = None
     if results is not None:
-        try:
-            raw = file.read_bytes()
-        except OSError:
-            raw = None
-        if raw is not None and len(raw) <= MAX_FILE_BYTES:
-            h = hashlib.sha256(f"{kind}\0{path}\0".encode())
-            h.update(raw)
-            digest = h.hexdigest()
-            hit = results.get("source", f"{kind}:{path}", digest)
-            if isinstance(hit, tuple) and len(hit) == 2:
-                return hit
-    doc, own = read_yaml_file(file, path)
+        h = hashlib.sha256(f"{kind}\0{path}\0".encode())
+        h.update(raw)
+        digest = h.hexdigest()
+        hit = results.get("source", f"{kind}:{path}", digest)
+        if isinstance(hit, tuple) and len(hit) == 2:
+            return hit
+    doc, own = parse_yaml_bytes(raw, path)
     own = list(own)
     item = None
     if doc is not None or not own:

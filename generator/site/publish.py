@@ -490,7 +490,7 @@ def render_site(computed: Computed, findings: Sequence[Finding], meta: pages.Sit
     n = 2 * jobs if jobs > 1 and len(keys) >= parallel.MIN_ITEMS else 1
     whole: list = list(pages.HANDBOOK_PARTS) if n > 1 else [None]
     tasks: list = whole + [tuple(keys[i::n]) for i in range(n)]
-    parts, _ = parallel.fork_map(_render_task, tasks, jobs if n > 1 else 1,
+    parts = parallel.fork_map(_render_task, tasks, jobs if n > 1 else 1,
                                  (computed, findings, meta, results), 2)
     handbook, sheets = ItemBatch({}, [], {}, {}, {}), ItemBatch({}, [], {}, {}, {})
     for i, (batch, _n) in enumerate(parts):
