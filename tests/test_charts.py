@@ -6,12 +6,14 @@ import dataclasses
 import hashlib
 import json
 import os
+import struct
 import subprocess
 import sys
 import xml.etree.ElementTree as ET
 from functools import cache
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from generator.charts import (
@@ -164,10 +166,67 @@ def test_canonical_json_sorted_and_rounded() -> None:
     data = json.loads(text)
     assert data["kind"] == "line"
     assert list(data) == sorted(data)
-    # 1/3 to 10 significant digits is 0.3333333333 (arithmetic); -0.0 is written as 0.0.
-    assert data["series"][0]["x"] == [0.3333333333, 0.0]
-    assert data["series"][0]["y"] == [2.0, 1e-30]
+    # 1/3 is 0x1.5555555555555p-2; kept to 40 mantissa bits the dropped 12 bits (0x555)
+    # are below half (0x800), so it rounds down to 0x1.5555555555000p-2 (arithmetic by
+    # hand); -0.0 is written as 0.0; 2.0 is exact.
+    assert data["series"][0]["x"] == [float.fromhex("0x1.5555555555000p-2"), 0.0]
+    assert data["series"][0]["y"][0] == 2.0
     assert text == json.dumps(data, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
+
+
+def test_rounding_keeps_40_mantissa_bits_half_away_from_zero() -> None:
+    # Values whose dropped bits are exactly half round away from zero (hand-made patterns).
+    up = float.fromhex("0x1.0000000000800p+0")  # dropped bits 0x800: exactly half
+    assert Series("s", (up, -up), (0.0, 0.0)).x == (float.fromhex("0x1.0000000001000p+0"),
+                                                   -float.fromhex("0x1.0000000001000p+0"))
+    # A carry out of the mantissa moves into the exponent: just under 2 rounds to 2.
+    assert Series("s", (float.fromhex("0x1.fffffffffffffp+0"), 1.0), (0.0, 0.0)).x[0] == 2.0
+    rng = np.random.default_rng(7)
+    values = rng.standard_normal(500) * 10.0 ** rng.integers(-30, 30, 500)
+    got = Series("s", values, values).x
+    for v, r in zip(values.tolist(), got, strict=True):
+        assert abs(r - v) <= abs(v) * 2.0**-40  # within half a step of 2**-40 of |v|
+        mantissa = float.hex(r).split(".")[1].split("p")[0].ljust(13, "0")  # 52 bits
+        assert int(mantissa, 16) & 0xFFF == 0  # the 12 dropped bits are clear
+    assert Series("s", got, got).x == got  # rounding a rounded value changes nothing
+
+
+def test_numpy_and_plain_rounding_give_the_same_bits() -> None:
+    rng = np.random.default_rng(11)
+    values = np.concatenate([rng.standard_normal(300) * 1e3, [0.0, -0.0, 5e-324, 1e308]])
+    from_array = Series("s", values, values).y
+    from_tuple = Series("s", tuple(values.tolist()), tuple(values.tolist())).y
+    assert [struct.pack("<d", v) for v in from_array] == [struct.pack("<d", v)
+                                                          for v in from_tuple]
+    a = LineChartSpec("t", "d", "x", "y", (Series("s", values, values),))
+    b = LineChartSpec("t", "d", "x", "y", (Series("s", list(values), list(values)),))
+    assert a == b and spec_digest(a, "v1") == spec_digest(b, "v1")
+    with pytest.raises(ValueError):
+        Series("s", np.array([1.0, 1.7976931348623157e308]), np.array([1.0, 2.0]))
+
+
+def test_canonical_bytes_tell_apart_what_json_tells_apart() -> None:
+    def line(**kw) -> LineChartSpec:
+        base = {"title": "t", "description": "d", "x_label": "x", "y_label": "y",
+                "series": (Series("s", (1.0, 2.0), (3.0, 4.0)),)}
+        return LineChartSpec(**{**base, **kw})
+
+    variants = [
+        line(), line(title="t "), line(x_label="xy", y_label=""),
+        line(series=(Series("s", (1.0, 2.0), (3.0, 4.5)),)),
+        line(series=(Series("s", (1.0, 2.0), (3.0, 4.0), "secondary"),)),
+        line(series=(Series("s", (1.0, 2.0), (3.0, 4.0)), Series("s", (1.0, 2.0), (3.0, 4.0)))),
+        line(points=(MarkedPoint(1.0, 2.0),)), line(shaded=(ShadedRange(1.0, 2.0),)),
+    ]
+    blobs = [v.canonical_bytes() for v in variants]
+    texts = [v.to_canonical_json() for v in variants]
+    assert len(set(texts)) == len(texts) and len(set(blobs)) == len(blobs)
+    assert line().canonical_bytes() == line().canonical_bytes()
+    # Two kinds with the same field values differ by kind.
+    levels = (Level("a", "A", 1.0),)
+    assert LevelDiagramSpec("t", "d", levels).canonical_bytes() != \
+        EntropyLevelSpec("t", "d", levels, unit_label="H° / (kJ mol⁻¹)",
+                         zero_label="elements in reference states").canonical_bytes()
 
 
 @pytest.mark.parametrize(

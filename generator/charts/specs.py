@@ -1,9 +1,13 @@
 """Chart specs: frozen, hashable plain data, one class per chart kind.
 
-A spec holds only strings, floats and tuples of them, so it is hashable and serialises to a
-canonical JSON text.  Numbers are rounded to ``SIG_DIGITS`` significant digits when the spec
-is built, so the spec that is drawn is exactly the spec that is hashed.  Nothing here imports
-matplotlib or numpy: a build whose charts are all cached needs only this module.
+A spec holds only strings, floats and tuples of them, so it is hashable and has one canonical
+byte form (``canonical_bytes``, which ``spec_digest`` hashes) and a canonical JSON text.
+Numbers are rounded to ``MANTISSA_BITS`` bits of binary mantissa (about twelve significant
+digits) when the spec is built, so the spec that is drawn is exactly the spec that is hashed
+and last-bit noise of the arithmetic does not change a digest.  The rounding is exact bit
+arithmetic (round half away from zero on the float64 pattern), done with numpy when the
+values come as a numpy array and with ``struct`` otherwise; both give the same bits.  Nothing
+here imports matplotlib or numpy: a build whose charts are all cached needs only this module.
 """
 
 from __future__ import annotations
@@ -12,39 +16,77 @@ import dataclasses
 import hashlib
 import json
 import math
+import struct
+import sys
 from collections.abc import Iterable
 from dataclasses import dataclass
 from functools import cache, lru_cache
 from importlib import metadata
 from typing import Any, ClassVar
 
-SIG_DIGITS = 10
+MANTISSA_BITS = 40  # of float64's 52: relative step 2**-40, about 12 significant digits
 ZERO_LEVEL = "zero"  # level key of the diagram's baseline (elements in reference states, S = 0)
 ARROW_KINDS: tuple[str, ...] = ("formation", "reaction", "atomization")
 
+_DROP = 52 - MANTISSA_BITS
+_HALF = 1 << (_DROP - 1)
+_MASK = 0xFFFF_FFFF_FFFF_FFFF ^ ((1 << _DROP) - 1)
+
+
+def _round_floats(floats: list[float]) -> tuple[float, ...]:
+    """Finite floats rounded to MANTISSA_BITS (half away from zero: add half of the dropped
+    bits to the bit pattern, clear them; a carry moves into the exponent as it should)."""
+    n = len(floats)
+    bits = struct.unpack(f"<{n}Q", struct.pack(f"<{n}d", *floats))
+    out = struct.unpack(f"<{n}d", struct.pack(f"<{n}Q", *[(b + _HALF) & _MASK for b in bits]))
+    return tuple([x + 0.0 for x in out])  # -0.0 becomes 0.0
+
+
+def _round_array(values) -> tuple[float, ...] | None:
+    """``_round_floats`` of a 1-D numpy float array, with numpy (already imported by whoever
+    made the array); None when a value is not finite or the rounding overflows."""
+    np = sys.modules["numpy"]
+    a = np.ascontiguousarray(values, dtype=np.float64).ravel()
+    if not bool(np.isfinite(a).all()):
+        return None
+    bits = (a.view(np.uint64) + np.uint64(_HALF)) & np.uint64(_MASK)
+    out = bits.view(np.float64) + 0.0
+    if not bool(np.isfinite(out).all()):
+        return None
+    return tuple(out.tolist())
+
 
 def _num(value: Any, what: str) -> float:
-    """One finite float rounded to SIG_DIGITS significant digits (-0.0 becomes 0.0)."""
+    """One finite float rounded to MANTISSA_BITS (-0.0 becomes 0.0)."""
     try:
         number = float(value)
     except (TypeError, ValueError):
         raise ValueError(f"{what}: expected a number, got {value!r}") from None
     if not math.isfinite(number):
         raise ValueError(f"{what}: expected a finite number, got {number!r}")
-    return float(f"{number:.{SIG_DIGITS - 1}e}") + 0.0
+    rounded = _round_floats([number])[0]
+    if not math.isfinite(rounded):
+        raise ValueError(f"{what}: {number!r} is too large to keep")
+    return rounded
 
 
 def _nums(values: Iterable[Any], what: str) -> tuple[float, ...]:
     """``_num`` of each value; the per-value checks (and their messages) only on a failure."""
+    if type(values).__module__ == "numpy" and getattr(values, "dtype", None) is not None \
+            and values.dtype.kind in "fiu":
+        done = _round_array(values)
+        if done is not None:
+            return done
     values = list(values)
     try:
         floats = [float(v) for v in values]
     except (TypeError, ValueError):
         floats = None
-    if floats is None or not all(map(math.isfinite, floats)):
-        return tuple(_num(v, f"{what}[{i}]") for i, v in enumerate(values))
-    fmt = f"{{:.{SIG_DIGITS - 1}e}}".format
-    return tuple(float(fmt(x)) + 0.0 for x in floats)
+    if floats is not None and all(map(math.isfinite, floats)):
+        done = _round_floats(floats)
+        if all(map(math.isfinite, done)):
+            return done
+    return tuple(_num(v, f"{what}[{i}]") for i, v in enumerate(values))
 
 
 def _set(obj: object, name: str, value: Any) -> None:
@@ -84,10 +126,67 @@ def _plain(obj: Any) -> Any:
     return obj
 
 
+_DOUBLE = struct.Struct("<d")
+_FLOATS = {float}
+
+
+def _str_bytes(text: str) -> bytes:
+    data = text.encode("utf-8")
+    return b"s%d:%s" % (len(data), data)
+
+
+@cache
+def _class_head(cls: type) -> tuple[bytes, tuple[tuple[str, bytes], ...]]:
+    """A dataclass's encoded head (field count and name) and each field's encoded name."""
+    names = _field_names(cls)
+    return (b"c%d:" % len(names) + _str_bytes(cls.__name__),
+            tuple((name, _str_bytes(name)) for name in names))
+
+
+def _encode(obj: Any, out: list[bytes]) -> None:
+    """Append the canonical bytes of ``obj``: a type tag, a length where the size varies,
+    then the value (floats as little-endian IEEE 754 doubles), so distinct values never
+    share an encoding."""
+    t = type(obj)
+    if t is str:
+        out.append(_str_bytes(obj))
+    elif t is float:
+        out.append(b"d" + _DOUBLE.pack(obj))
+    elif t is tuple or t is list:
+        if obj and set(map(type, obj)) == _FLOATS:
+            out.append(b"D%d:" % len(obj) + struct.pack(f"<{len(obj)}d", *obj))
+        else:
+            out.append(b"l%d:" % len(obj))
+            for v in obj:
+                _encode(v, out)
+    elif t is bool:
+        out.append(b"T" if obj else b"F")
+    elif t is int:
+        out.append(b"i%d;" % obj)
+    elif obj is None:
+        out.append(b"n")
+    elif dataclasses.is_dataclass(obj):
+        head, fields = _class_head(t)
+        out.append(head)
+        for name, name_bytes in fields:
+            out.append(name_bytes)
+            _encode(getattr(obj, name), out)
+    else:
+        raise TypeError(f"a chart spec holds no {t.__name__}")
+
+
 class _Spec:
-    """Canonical JSON for every spec kind."""
+    """Canonical bytes and canonical JSON for every spec kind."""
 
     kind: ClassVar[str] = ""
+
+    def canonical_bytes(self) -> bytes:
+        """The spec's kind and every field, type-tagged and length-prefixed (what
+        ``spec_digest`` hashes; far cheaper than the JSON text for long series)."""
+        out: list[bytes] = [b"thermofolio-chart-spec 2\0"]
+        _encode(self.kind, out)
+        _encode(self, out)
+        return b"".join(out)
 
     def to_canonical_json(self) -> str:
         """Sorted-key, compact JSON of ``kind`` and every field (floats already rounded)."""
@@ -321,10 +420,12 @@ def _versions() -> str:
 
 
 def spec_digest(spec: ChartSpec, style_version: str | None = None) -> str:
-    """sha256 hex of canonical JSON + house-style version + matplotlib and thermofolio versions."""
+    """sha256 hex of the canonical bytes, the house-style version and the matplotlib and
+    thermofolio versions."""
     if style_version is None:
         from generator.charts.style import STYLE_VERSION
 
         style_version = STYLE_VERSION
-    text = f"{spec.to_canonical_json()}\n{style_version}\n{_versions()}"
-    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+    h = hashlib.sha256(spec.canonical_bytes())
+    h.update(f"\0{style_version}\0{_versions()}".encode())
+    return h.hexdigest()

@@ -208,7 +208,7 @@ def species_charts(sr: SpeciesResult, computed: Computed) -> list[ChartEntry]:
                              f"{fmt_T(T1)}.{_shaded_text(shaded)}"),
                 x_label="T / K",
                 y_label=y_label,
-                series=(Series(sym, tuple(c.T), tuple(y)),),
+                series=(Series(sym, c.T, y),),
                 shaded=shaded,
             )
             caption = (f"{words} of {who}, {fmt_T(T0)}–{fmt_T(T1)}, "
@@ -297,7 +297,7 @@ def _gibbs(rr: ReactionResult, computed: Computed) -> ChartEntry | None:
         description=(f"{eq}. From {fmt_T(T0)} to {fmt_T(T1)}: {span('ΔrG°', c.drG)}, "
                      f"{span('ΔrH°', c.drH)}, {span('T·ΔrS°', c.TdrS)}. {cross_text}"
                      f"{_shaded_text(shaded)}"),
-        T=tuple(c.T), drG=tuple(c.drG), drH=tuple(c.drH), T_drS=tuple(c.TdrS),
+        T=c.T, drG=c.drG, drH=c.drH, T_drS=c.TdrS,
         crossovers=points, extrapolated=shaded,
     )
     caption = (f"ΔrG° = ΔrH° − T·ΔrS° of {eq}, {fmt_T(T0)}–{fmt_T(T1)}. "
@@ -319,7 +319,7 @@ def _vant_hoff(rr: ReactionResult, computed: Computed) -> ChartEntry | None:
         description=(f"log₁₀ K of {eq} against 1000 K / T: {fmt(float(c.log10K[0]))} at "
                      f"{fmt_T(T0)}, {fmt(float(c.log10K[-1]))} at {fmt_T(T1)}.{k_one}"
                      f"{_shaded_text(shaded)}"),
-        T=tuple(c.T), log10_K=tuple(c.log10K), extrapolated=shaded,
+        T=c.T, log10_K=c.log10K, extrapolated=shaded,
         points=tuple(MarkedPoint(t, 0.0, f"K = 1 at {t:.0f} K") for t in cross),
     )
     caption = (f"van 't Hoff plot of {eq}: log₁₀ K against 1000 K / T, "
@@ -437,7 +437,7 @@ def _finite_series(label: str, x, y, role: str) -> Series | None:
     ok = np.isfinite(xs) & np.isfinite(ys)
     if int(np.sum(ok)) < 2:
         return None
-    return Series(label, tuple(xs[ok]), tuple(ys[ok]), role)
+    return Series(label, xs[ok], ys[ok], role)
 
 
 def _role(i: int) -> str:
