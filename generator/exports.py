@@ -40,22 +40,33 @@ def num(x: float | None) -> float | None:
     return float(f"{x:.{SIGNIFICANT}g}")
 
 
+_FMT = f"{{:.{SIGNIFICANT}g}}".format
+
+
+def nums(values) -> list[float | None]:
+    """``num`` of every value of a 1-D array (or sequence), in one pass."""
+    xs = values.tolist() if hasattr(values, "tolist") else [float(v) for v in values]
+    isfinite, fmt = math.isfinite, _FMT
+    return [float(fmt(x)) + 0.0 if isfinite(x) else None for x in xs]  # + 0.0: -0.0 -> 0.0
+
+
 def reaction_rows(f: ReactionFunctions) -> list[dict]:
-    rows = []
-    for i, T in enumerate(f.T):
-        rows.append({
-            "T": num(T),
-            "drH": num(f.drH[i]), "drS": num(f.drS[i]), "drG": num(f.drG[i]),
-            "drCp": num(f.drCp[i]), "drU": num(f.drU[i]), "TdrS": num(f.TdrS[i]),
-            "K": num(f.K[i]), "log10K": num(f.log10K[i]),
-            "E": None if f.E is None else num(f.E[i]),
-            "Etn": None if f.Etn is None else num(f.Etn[i]),
-            "u": {"drH": num(f.u_drH[i]), "drS": num(f.u_drS[i]), "drG": num(f.u_drG[i]),
-                  "log10K": num(f.u_log10K[i])},
-            "K_range": k_range(f.log10K[i], f.u_log10K[i]),
-            "extrapolated": bool(f.extrapolated[i]),
-        })
-    return rows
+    n = len(f.T)
+    none = [None] * n
+    T, drH, drS, drG = nums(f.T), nums(f.drH), nums(f.drS), nums(f.drG)
+    drCp, drU, TdrS, K, log10K = nums(f.drCp), nums(f.drU), nums(f.TdrS), nums(f.K), \
+        nums(f.log10K)
+    E = none if f.E is None else nums(f.E)
+    Etn = none if f.Etn is None else nums(f.Etn)
+    u_H, u_S, u_G, u_K = nums(f.u_drH), nums(f.u_drS), nums(f.u_drG), nums(f.u_log10K)
+    raw_K, raw_uK = f.log10K.tolist(), f.u_log10K.tolist()
+    extrap = f.extrapolated.tolist()
+    return [{
+        "T": T[i], "drH": drH[i], "drS": drS[i], "drG": drG[i], "drCp": drCp[i],
+        "drU": drU[i], "TdrS": TdrS[i], "K": K[i], "log10K": log10K[i], "E": E[i],
+        "Etn": Etn[i], "u": {"drH": u_H[i], "drS": u_S[i], "drG": u_G[i], "log10K": u_K[i]},
+        "K_range": k_range(raw_K[i], raw_uK[i]), "extrapolated": bool(extrap[i]),
+    } for i in range(n)]
 
 
 def k_range(log10K: float, u_log10K: float) -> list[float | None] | None:
@@ -82,30 +93,29 @@ def reaction_json(equation: str, f: ReactionFunctions, crossover_T: Sequence[flo
 
 
 def species_rows(f: SpeciesFunctions, form: FormationFunctions) -> list[dict]:
-    rows = []
-    for i, T in enumerate(f.T):
-        rows.append({
-            "T": num(T), "Cp": num(f.Cp[i]), "H_minus_H298": num(f.H_minus_H298[i]),
-            "S": num(f.S[i]), "G": num(f.G[i]), "gef": num(f.gef[i]),
-            "dfH": num(form.dfH[i]), "dfG": num(form.dfG[i]), "log10Kf": num(form.log10Kf[i]),
-            "u": {"dfH": num(form.u_dfH[i]), "dfG": num(form.u_dfG[i])},
-            "extrapolated": bool(f.extrapolated[i] or form.extrapolated[i]),
-        })
-    return rows
+    T, Cp, dH, S, G, gef = (nums(a) for a in (f.T, f.Cp, f.H_minus_H298, f.S, f.G, f.gef))
+    dfH, dfG, lgK, u_H, u_G = (nums(a) for a in (form.dfH, form.dfG, form.log10Kf,
+                                                 form.u_dfH, form.u_dfG))
+    extrap = (np.asarray(f.extrapolated) | np.asarray(form.extrapolated)).ravel().tolist()
+    return [{
+        "T": T[i], "Cp": Cp[i], "H_minus_H298": dH[i], "S": S[i], "G": G[i], "gef": gef[i],
+        "dfH": dfH[i], "dfG": dfG[i], "log10Kf": lgK[i], "u": {"dfH": u_H[i], "dfG": u_G[i]},
+        "extrapolated": bool(extrap[i]),
+    } for i in range(len(T))]
 
 
 def csv_table(rows: list[dict], columns: Sequence[str]) -> str:
     """CSV of the rows' columns (u.* for uncertainties), empty cells for null."""
-    def cell(row: dict, col: str) -> str:
-        v = row["u"].get(col[2:]) if col.startswith("u.") else row.get(col)
-        if v is None:
-            return ""
-        if isinstance(v, bool):
-            return "yes" if v else "no"
-        return repr(v) if isinstance(v, float) else str(v)
-
+    cells = []
+    for col in columns:
+        if col.startswith("u."):
+            values = [r["u"].get(col[2:]) for r in rows]
+        else:
+            values = [r.get(col) for r in rows]
+        cells.append(["" if v is None else ("yes" if v else "no") if v is True or v is False
+                      else repr(v) if type(v) is float else str(v) for v in values])
     lines = [",".join(columns)]
-    lines += [",".join(cell(r, c) for c in columns) for r in rows]
+    lines += [",".join(row) for row in zip(*cells, strict=True)]
     return "\n".join(lines) + "\n"
 
 

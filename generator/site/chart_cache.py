@@ -1,12 +1,13 @@
 """The chart cache: drawn SVGs kept outside the site, addressed by what they show.
 
 An entry is ``<folder>/<key[:2]>/<key>.svg`` where ``key`` is the sha256 of the chart spec's
-canonical bytes (values rounded to 40 mantissa bits), the house-style version and the matplotlib and thermofolio versions
-(generator.charts.spec_digest), optionally salted with the drawing function's name.  The file
-is the SVG document followed by one trailing comment line holding the sha256 and length of the
-document's bytes, so a truncated or corrupted entry is detected on reading, reported as a miss
-and redrawn; it is never published.  Entries are written to a temporary file and renamed into
-place, so a reader sees either no entry or a whole one.
+canonical bytes (values rounded to 40 mantissa bits), the house-style version and the
+matplotlib and thermofolio versions (generator.charts.spec_digest), optionally salted with
+the drawing function's name.  The file is the SVG document followed by one trailing comment
+line holding the sha256 and length of the document's bytes, so a truncated or corrupted entry
+is detected on reading, reported as a miss and redrawn; it is never published.  Entries are
+written to a temporary file and renamed into place, so a reader sees either no entry or a
+whole one.
 """
 
 from __future__ import annotations
