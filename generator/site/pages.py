@@ -64,6 +64,22 @@ def fixed(x: float | None, kind: str) -> str:
     return text.replace("-", MINUS)
 
 
+def fixed_all(values, kind: str) -> list[str]:
+    """``fixed`` of every value of a 1-D array or sequence, in one pass (a table column)."""
+    fmt = f"{{:.{DECIMALS[kind]}f}}".format
+    isfinite = math.isfinite
+    out = []
+    for x in values.tolist() if hasattr(values, "tolist") else values:
+        if x is None or not isfinite(x):
+            out.append(MISSING)
+            continue
+        text = fmt(x)
+        if text[0] == "-":
+            text = text[1:] if float(text) == 0.0 else MINUS + text[1:]
+        out.append(text)
+    return out
+
+
 def temperature(T: float | None) -> str:
     return fixed(T, "T")
 
@@ -383,15 +399,12 @@ SPECIES_COLUMNS = (
 
 def species_table(sr: SpeciesResult) -> list[dict]:
     g, f = sr.grid, sr.formation
-    rows = []
-    for i, T in enumerate(g.T):
-        rows.append({
-            "extrapolated": bool(g.extrapolated[i] or f.extrapolated[i]),
-            "cells": [temperature(T), fixed(g.Cp[i], "J"), fixed(g.H_minus_H298[i], "kJ"),
-                      fixed(g.S[i], "J"), fixed(g.gef[i], "J"), fixed(f.dfH[i], "kJ"),
-                      fixed(f.dfG[i], "kJ"), fixed(f.log10Kf[i], "log10K")],
-        })
-    return rows
+    columns = [fixed_all(g.T, "T"), fixed_all(g.Cp, "J"), fixed_all(g.H_minus_H298, "kJ"),
+               fixed_all(g.S, "J"), fixed_all(g.gef, "J"), fixed_all(f.dfH, "kJ"),
+               fixed_all(f.dfG, "kJ"), fixed_all(f.log10Kf, "log10K")]
+    extrapolated = [bool(g.extrapolated[i] or f.extrapolated[i]) for i in range(len(g.T))]
+    return [{"extrapolated": e, "cells": list(cells)}
+            for e, cells in zip(extrapolated, zip(*columns, strict=True), strict=True)]
 
 
 def _charts(views: Sequence[ChartView], root: str) -> tuple[list[dict], list[dict]]:
@@ -490,10 +503,20 @@ def reaction_table(rr: ReactionResult) -> tuple[list[dict], list[dict]]:
     keys = REACTION_KEYS + (ELECTRO_KEYS if f.E is not None else ())
     columns = [{"label": Markup("T"), "unit": "K"}] + [
         {"label": symbol(k), "unit": _reaction_unit(k)} for k in keys]
-    rows = [{"extrapolated": bool(f.extrapolated[i]),
-             "cells": [temperature(T)] + [_reaction_cell(f, k, i) for k in keys]}
-            for i, T in enumerate(f.T)]
+    cells = [fixed_all(f.T, "T")] + [_reaction_column(f, k) for k in keys]
+    rows = [{"extrapolated": e, "cells": list(row)}
+            for e, row in zip(f.extrapolated.tolist(), zip(*cells, strict=True), strict=True)]
     return columns, rows
+
+
+def _reaction_column(f, key: str) -> list[str]:
+    """``_reaction_cell`` of every grid temperature."""
+    if key == "K":
+        return [scientific(x) for x in f.K.tolist()]
+    arr = getattr(f, key)
+    if arr is None:
+        return [MISSING] * len(f.T)
+    return fixed_all(arr, QUANTITY_DECIMALS[key])
 
 
 def reaction_standard(rr: ReactionResult) -> list[dict]:
