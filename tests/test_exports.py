@@ -14,6 +14,17 @@ from generator.site import pages
 publish = importlib.import_module("generator.site.publish")  # the module, not the function
 
 
+def test_rounding_a_column_equals_rounding_each_value():
+    import numpy as np
+
+    from generator.exports import num, nums
+
+    values = [1 / 3, -0.0, 0.0, 1e-300, -2.5e300, float("nan"), float("inf"), 298.15,
+              123456789.123456789]
+    assert nums(values) == [num(v) for v in values]
+    assert nums(np.array(values)) == [num(v) for v in values]
+
+
 def test_json_text_round_trips_and_puts_each_deep_container_on_one_line():
     doc = {"b": [{"T": 298.15, "x": None}, {"T": 300.0, "x": [1, 2]}], "a": "ΔfH°",
            "c": {}, "d": {"k": {"deep": [1]}}}

@@ -273,6 +273,31 @@ def test_number_formatting() -> None:
     assert pages.uncertainty(0.04, "kJ") == "± 0.040"
 
 
+def test_column_formatting_equals_cell_formatting() -> None:
+    values = [-285.83, -0.0001, 0.0, -0.0, 1e-9, float("nan"), float("inf"), None, 12.3456789,
+              -1e6, 0.0005, -0.0005]
+    for kind in pages.DECIMALS:
+        assert pages.fixed_all(values, kind) == [pages.fixed(v, kind) for v in values], kind
+    import numpy as np
+
+    arr = np.array([v for v in values if v is not None])
+    assert pages.fixed_all(arr, "kJ") == [pages.fixed(v, "kJ") for v in arr.tolist()]
+
+
+def test_number_cells_escape_like_the_template_would() -> None:
+    from markupsafe import Markup, escape
+
+    from generator.site.assets import num_cells
+
+    def one_by_one(cells) -> str:
+        return "".join(f'<td class="num">{escape(c)}</td>' for c in cells)
+
+    for cells in (["1.000", "−2.5", "—"], ['a<b & "c"', "x'y"], [Markup("<sub>2</sub>"), "<"],
+                  ["\x1f<", "b"], []):
+        assert str(num_cells(cells)) == one_by_one(cells), cells
+        assert isinstance(num_cells(cells), Markup)
+
+
 def test_refuses_non_empty_unmarked_folder(tmp_path: Path, capsys) -> None:
     out = tmp_path / "precious"
     out.mkdir()
