@@ -26,7 +26,7 @@ import numpy as np
 
 from generator.model import Species
 from generator.thermo.equilibrium import extent_bounds
-from generator.thermo.species_props import species_functions
+from generator.thermo.species_props import species_table
 
 T_MIN = 100.0  # K, lower end of the search
 T_MAX = 6000.0  # K, upper end of the search (the usual top of NASA 9-coefficient fits)
@@ -54,12 +54,15 @@ def _enthalpy_curve(amounts: Mapping[str, float], species: Mapping[str, Species]
     """sum n_i H_i(T) (kJ) over the array ``T`` and where any species present is
     extrapolated."""
     total, extrap = np.zeros_like(T), np.zeros(T.shape, dtype=bool)
-    for sid, n in amounts.items():
-        if n <= 0:
-            continue
-        f = species_functions(species[sid], T)
-        total = total + n * f.H
-        extrap = extrap | f.extrapolated
+    present = [(sid, n) for sid, n in amounts.items() if n > 0]
+    if not present:
+        return total, extrap
+    # one table for every species present (its rows equal species_functions' values); the
+    # search's temperatures are asked for once, so they are not remembered
+    table = species_table([species[sid] for sid, _n in present], T.ravel())
+    for i, (_sid, n) in enumerate(present):
+        total = total + n * table.H[i].reshape(T.shape)
+        extrap = extrap | table.extrapolated[i].reshape(T.shape)
     return total, extrap
 
 

@@ -22,7 +22,12 @@ import numpy as np
 
 from generator.model import Species
 from generator.thermo.constants import LN10, F, R
-from generator.thermo.species_props import species_table, standard_value, u_linear
+from generator.thermo.species_props import (
+    species_functions,
+    species_table,
+    standard_value,
+    u_linear,
+)
 
 CROSSOVER_GRID = 400  # evaluation points over the covered range before refinement
 CROSSOVER_TOL_K = 1e-6
@@ -79,10 +84,26 @@ def covered_range(nu: Mapping[str, float], species: Mapping[str, Species]
     return (float(lo), float(hi)) if lo < hi else None
 
 
+def _species_columns(members: Sequence[Species], T: np.ndarray, remember: bool) -> tuple:
+    """H, S, Cp and extrapolated rows of ``members`` at the 1-D ``T``: through
+    species_functions' memo when ``remember`` (a grid many reactions share, so each species
+    is evaluated once per grid), else one species_table call.  The rows are equal either
+    way (species_table computes each row by the same operations whatever the batch)."""
+    if remember:
+        fns = [species_functions(sp, T) for sp in members]
+        return ([f.H for f in fns], [f.S for f in fns], [f.Cp for f in fns],
+                [f.extrapolated for f in fns])
+    table = species_table(members, T)
+    return table.H, table.S, table.Cp, table.extrapolated
+
+
 def reaction_functions(nu: Mapping[str, float], species: Mapping[str, Species],
                        T: np.ndarray | Sequence[float] | float,
-                       electrons: int | None = None) -> ReactionFunctions:
-    """All reaction properties over ``T`` for net stoichiometry ``nu`` (species id -> nu)."""
+                       electrons: int | None = None, remember: bool = True
+                       ) -> ReactionFunctions:
+    """All reaction properties over ``T`` for net stoichiometry ``nu`` (species id -> nu).
+    ``remember``: keep the species' functions at ``T`` for the next reaction (False for
+    temperatures no other reaction will ask for)."""
     Tf = np.atleast_1d(np.asarray(T, dtype=float))
     drH = np.zeros_like(Tf)
     drS = np.zeros_like(Tf)
@@ -90,12 +111,12 @@ def reaction_functions(nu: Mapping[str, float], species: Mapping[str, Species],
     extrap = np.zeros(Tf.shape, dtype=bool)
     nus, u_H, u_S = [], [], []
     terms = sorted(nu.items())
-    table = species_table([species[sid] for sid, _n in terms], Tf.ravel())
+    H, S, Cp, ex = _species_columns([species[sid] for sid, _n in terms], Tf.ravel(), remember)
     for i, (sid, n) in enumerate(terms):
-        drH = drH + n * table.H[i].reshape(Tf.shape)
-        drS = drS + n * table.S[i].reshape(Tf.shape)
-        drCp = drCp + n * table.Cp[i].reshape(Tf.shape)
-        extrap |= table.extrapolated[i].reshape(Tf.shape)
+        drH = drH + n * H[i].reshape(Tf.shape)
+        drS = drS + n * S[i].reshape(Tf.shape)
+        drCp = drCp + n * Cp[i].reshape(Tf.shape)
+        extrap |= ex[i].reshape(Tf.shape)
         nus.append(n)
         u_dfH = standard_value(species[sid], "dfH")[1]
         u_H.append(0.0 if _exact_zero_dfH(species[sid]) else u_dfH)
@@ -140,7 +161,7 @@ def crossover_temperatures(nu: Mapping[str, float], species: Mapping[str, Specie
     bisection); a grid point exactly at zero counts once."""
 
     def drG(T: np.ndarray) -> np.ndarray:
-        return reaction_functions(nu, species, T).drG
+        return reaction_functions(nu, species, T, remember=False).drG
 
     grid = np.linspace(lo, hi, CROSSOVER_GRID)
     g = drG(grid)
