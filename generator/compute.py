@@ -18,7 +18,6 @@ import numpy as np
 from generator.diagnostics import Finding
 from generator.model import Handbook, Reaction, Species
 from generator.neighbourhood import Digester, digester_for, reaction_handbook
-from generator.parallel import fork_map
 from generator.results_cache import kept_or_made
 from generator.thermo.constants import T_REF
 from generator.thermo.reactions import (
@@ -35,6 +34,7 @@ from generator.thermo.species_props import (
     SpeciesFunctions,
     formation_coefficients,
     formation_functions,
+    remember_functions,
     species_functions,
 )
 from generator.thermo.standard_state import to_standard_pressure
@@ -177,28 +177,40 @@ def _reaction_result(shared: tuple[Handbook, np.ndarray], rid: str) -> ReactionR
     )
 
 
-def _species_curves(sp: Species, element_refs: Mapping[str, Species], grid: np.ndarray,
-                    results: ResultStore | None, digester: Digester
-                    ) -> tuple[SpeciesFunctions, FormationFunctions, SpeciesFunctions]:
-    """A species' functions on the grid, its formation functions and its chart curve: pure
-    functions of the species, the element reference states and the grid, kept in
-    ``results`` under the digest of exactly those."""
-    refs = {el: element_refs[el] for el in formation_coefficients(sp) if el in element_refs}
-    digest = None
-    if results is not None:
-        digest = digester.parts("species", sp, refs, grid)
-        hit = results.get("species", sp.id, digest)
-        if isinstance(hit, tuple) and len(hit) == 3:
-            for i, part in enumerate(hit):
-                digester.know(f"{digest}:{i}", part)
-            return hit
+def _species_refs(sp: Species, element_refs: Mapping[str, Species]) -> dict[str, Species]:
+    """The element reference states a species' formation functions read."""
+    return {el: element_refs[el] for el in formation_coefficients(sp) if el in element_refs}
+
+
+def _species_made(shared: tuple[Mapping[str, Species], Mapping[str, Mapping[str, Species]],
+                                np.ndarray], sid: str
+                  ) -> tuple[SpeciesFunctions, FormationFunctions, SpeciesFunctions]:
+    """A species' functions on the grid, its formation functions and its chart curve."""
+    species, refs, grid = shared
+    sp = species[sid]
     fine = chart_grid(sp.Tmin, sp.Tmax) if sp.cp else np.array([T_REF])
-    made = (species_functions(sp, grid), formation_functions(sp, refs, grid),
+    return (species_functions(sp, grid), formation_functions(sp, refs[sid], grid),
             species_functions(sp, fine))
-    if results is not None and digest is not None:
-        results.put("species", sp.id, digest, made)
-        for i, part in enumerate(made):
-            digester.know(f"{digest}:{i}", part)
+
+
+def _species_curves(species: Mapping[str, Species], element_refs: Mapping[str, Species],
+                    grid: np.ndarray, jobs: int, results: ResultStore | None,
+                    digester: Digester) -> dict[str, tuple]:
+    """Every species' (functions on the grid, formation functions, chart curve): pure
+    functions of the species, its element reference states and the grid, kept in
+    ``results`` under the digest of exactly those; the rest made by ``jobs`` forked
+    processes.  The grid functions are handed to species_functions' memo, so the reactions
+    that follow find them there."""
+    refs = {sid: _species_refs(sp, element_refs) for sid, sp in species.items()}
+    digests = {sid: digester.parts("species", sp, refs[sid], grid) if results is not None
+               else "" for sid, sp in species.items()}
+    made = kept_or_made(results, "species", digests, tuple, _species_made,
+                        (species, refs, grid), jobs)
+    for sid, parts in made.items():
+        if results is not None:
+            for i, part in enumerate(parts):
+                digester.know(f"{digests[sid]}:{i}", part)
+        remember_functions(species[sid], grid, parts[0])
     return made
 
 
@@ -216,8 +228,8 @@ def _reactions(hb: Handbook, grid: np.ndarray, jobs: int, results: ResultStore |
     cuts = {rid: reaction_handbook(hb, rid) for rid in hb.reactions}
     digester = digester_for(hb)
     digests = {rid: digester.cut(cut, "reaction", rid, grid) for rid, cut in cuts.items()}
-    out = kept_or_made(results, "reaction", digests, ReactionResult, lambda todo: fork_map(
-        _reaction_from_cut, todo, jobs, (cuts, grid)))
+    out = kept_or_made(results, "reaction", digests, ReactionResult, _reaction_from_cut,
+                       (cuts, grid), jobs)
     if results is not None:
         for rid, rr in out.items():
             digester.know(digests[rid], rr, "grid", "curve", "hess_total")
@@ -255,10 +267,10 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None, jobs: int
     species: dict[str, SpeciesResult] = {}
     atoms_of = atom_species(hb)
     digester = digester_for(hb)
+    curves = _species_curves(hb.species, element_refs, grid, jobs, results, digester)
     for sid, sp in hb.species.items():
         atoms = _atoms(sp, hb, atoms_of)
-        on_grid, formation, curve = _species_curves(sp, element_refs, grid, results,
-                                                    digester)
+        on_grid, formation, curve = curves[sid]
         species[sid] = SpeciesResult(
             species=sp, grid=on_grid, formation=formation, curve=curve,
             reactions=tuple(sorted(users.get(sid, ()))),

@@ -394,14 +394,12 @@ def compute_design(computed: Computed, jobs: int = 1, results: ResultStore | Non
     digest of that cut, the rest split over ``jobs`` forked processes (generator.parallel);
     then the families and element ladders."""
     from generator.neighbourhood import digester_for, reaction_view
-    from generator.parallel import fork_map
     from generator.results_cache import kept_or_made
 
     views = {rid: reaction_view(computed, rid) for rid in computed.reactions}
     digester = digester_for(computed.handbook)
     digests = {rid: digester.view(v, "design", rid) for rid, v in views.items()}
-    done = kept_or_made(results, "design", digests, DesignResult, lambda todo: fork_map(
-        _reaction_design, todo, jobs, views))
+    done = kept_or_made(results, "design", digests, DesignResult, _reaction_design, views, jobs)
     if results is not None:
         for rid, d in done.items():
             digester.know(digests[rid], d, "chart_conversion", "table_conversion", "adiabatic",

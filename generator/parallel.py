@@ -10,6 +10,7 @@ the same with one process or many.
 
 from __future__ import annotations
 
+import gc
 import multiprocessing
 import os
 import threading
@@ -54,11 +55,17 @@ def fork_map(fn: Callable[[Any, Any], Any], items: Sequence, jobs: int, shared: 
     n_chunks = min(len(items), 4 * jobs)
     chunks = [items[i::n_chunks] for i in range(n_chunks)]  # interleaved: even loads
     _TASK = (fn, shared)
+    # Everything alive now is moved out of the collector's sight while the workers run
+    # (gc.freeze, as the gc module's documentation advises before a fork): their full
+    # collections then skip the inherited heap instead of walking it, and do not dirty its
+    # pages, which would copy them.
+    gc.freeze()
     try:
         with multiprocessing.get_context("fork").Pool(jobs) as pool:
             parts = pool.map(_run_chunk, chunks)
     finally:
         _TASK = None
+        gc.unfreeze()
     results: list = [None] * len(items)
     for i, part in enumerate(parts):
         results[i::n_chunks] = part

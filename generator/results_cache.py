@@ -23,7 +23,7 @@ import os
 import pickle
 import re
 import sys
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any, Protocol
 
@@ -186,10 +186,14 @@ def write_atomically(path: str, chunks) -> None:
 
 
 def kept_or_made(results: ResultStore | None, kind: str, digests: Mapping[str, str],
-                 result_type: type, make: Callable[[list[str]], Sequence]) -> dict:
+                 result_type: type, make_one: Callable[[Any, str], Any], shared: Any,
+                 jobs: int = 1) -> dict:
     """Each item's result (items: the keys of ``digests``, in order): from ``results`` when
-    an entry of ``result_type`` is kept under the item's digest, else from
-    ``make(items still to do)`` and stored back."""
+    an entry of ``result_type`` is kept under the item's digest, else ``make_one(shared,
+    item)``, made by ``jobs`` forked processes (generator.parallel.fork_map), each storing
+    what it made back into ``results``."""
+    from generator.parallel import fork_map
+
     done: dict = {}
     if results is not None:
         for item, digest in digests.items():
@@ -197,8 +201,13 @@ def kept_or_made(results: ResultStore | None, kind: str, digests: Mapping[str, s
             if isinstance(hit, result_type):
                 done[item] = hit
     todo = [item for item in digests if item not in done]
-    for item, result in zip(todo, make(todo), strict=True):
-        done[item] = result
+
+    def make_and_keep(shared_: Any, item: str) -> Any:
+        result = make_one(shared_, item)
         if results is not None:
             results.put(kind, item, digests[item], result)
+        return result
+
+    for item, result in zip(todo, fork_map(make_and_keep, todo, jobs, shared), strict=True):
+        done[item] = result
     return {item: done[item] for item in digests}

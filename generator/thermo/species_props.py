@@ -40,7 +40,7 @@ from __future__ import annotations
 import os
 from collections import OrderedDict
 from collections.abc import Iterable, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 from functools import lru_cache
 
 import numpy as np
@@ -358,6 +358,23 @@ def species_functions(species: Species, T: np.ndarray | Sequence[float] | float
     return result
 
 
+def remember_functions(species: Species, T: np.ndarray | Sequence[float],
+                       result: SpeciesFunctions) -> None:
+    """Hand ``species_functions``' memo a result it made for ``species`` at ``T`` elsewhere
+    (in a worker process, or read from the results cache); its arrays are made read-only as
+    the memo's own are."""
+    T_in = np.asarray(T, dtype=float)
+    if T_in.size > _MEMO_POINTS:
+        return
+    for f in fields(result):
+        value = getattr(result, f.name)
+        if isinstance(value, np.ndarray) and value.flags.writeable:
+            value.setflags(write=False)
+    _MEMO[(id(species), T_in.shape, T_in.tobytes())] = (species, result)
+    if len(_MEMO) > _MEMO_SIZE:
+        _MEMO.popitem(last=False)
+
+
 def _species_functions(species: Species, T_in: np.ndarray) -> SpeciesFunctions:
     Tf = T_in.ravel()
     table = species_table((species,), Tf)
@@ -642,6 +659,7 @@ def formation_functions(species: Species, element_refs: Mapping[str, Species],
 
 __all__ = [
     "SpeciesFunctions",
+    "remember_functions",
     "FormationFunctions",
     "species_functions",
     "species_table",
