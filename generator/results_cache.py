@@ -162,16 +162,16 @@ class ResultsCache:
             return
 
 
-def write_atomically(path: str, chunks) -> None:
+def write_atomically(path: str, chunks, mode: int = 0o600) -> None:
     """Write ``chunks`` (bytes) to a temporary file beside ``path`` and rename it into
     place, so a reader sees no file or a whole one.  The temporary name is this process's
     own (no random names: a build writes thousands of entries)."""
     tmp = os.path.join(os.path.dirname(path), f".tmp-{os.getpid()}-{os.path.basename(path)}")
     try:
-        fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+        fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, mode)
     except FileExistsError:  # left by a killed process that had this pid
         os.unlink(tmp)
-        fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+        fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, mode)
     try:
         with os.fdopen(fd, "wb") as fh:
             for chunk in chunks:

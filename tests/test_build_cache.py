@@ -132,7 +132,8 @@ def test_corrupt_cache_entry_is_redrawn_not_published(tmp_path, recorder, capsys
     recorder.drawn.clear()
     assert build(src, out, cache, capsys)[:3] == (charts, 1, charts - 1)
     published = {p.read_bytes() for p in (out / "charts").glob("*.svg")}
-    assert svg in published and (bad == svg or bad not in published)
+    # A site publishes the entry's bytes (the SVG and its integrity trailer), never the bad.
+    assert good in published and bad not in published
     assert entry.read_bytes() == good  # the redrawn chart replaced the bad entry
 
 
@@ -180,3 +181,30 @@ def test_fully_cached_build_does_not_import_matplotlib(tmp_path, monkeypatch):
                           env=env, cwd=tmp_path, timeout=120, check=False)
     assert done.stdout.split() == ["False", "0"], done.stderr
     assert f"{len(specs)} cached" in done.stderr
+
+
+def _tree(folder: Path) -> dict[str, bytes]:
+    return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*"))
+            if p.is_file()}
+
+
+def test_charts_are_linked_from_the_cache_and_the_site_is_the_same_without_it(
+        tmp_path, recorder, capsys):
+    src, cache = assemble(tmp_path / "hb"), tmp_path / "cache"
+    linked, plain = tmp_path / "linked", tmp_path / "plain"
+    build(src, linked, cache, capsys)
+    capsys.readouterr()
+    assert main(["build", str(src), "-o", str(plain), "--no-cache", "-q", "-j", "1"]) == 0
+    assert _tree(linked) == _tree(plain)  # a cache changes how files are made, not bytes
+    entries = {p.read_bytes(): p for p in cache.rglob("*.svg")}
+    charts = sorted((linked / "charts").glob("*.svg"))
+    assert charts and all(os.stat(c).st_ino == os.stat(entries[c.read_bytes()]).st_ino
+                          for c in charts)
+    assert all(p.stat().st_nlink == 1 for p in (plain / "charts").glob("*.svg"))
+    # An entry whose permissions differ from a new file's is copied, not linked.
+    for entry in entries.values():
+        entry.chmod(0o600)
+    third = tmp_path / "third"
+    build(src, third, cache, capsys)
+    assert _tree(third) == _tree(plain)
+    assert all(p.stat().st_nlink == 1 for p in (third / "charts").glob("*.svg"))

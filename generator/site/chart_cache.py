@@ -65,6 +65,12 @@ class ChartCache:
     def get(self, key: str) -> bytes | None:
         """The SVG stored under ``key``, or None if absent or failing its checks (a failing
         entry is deleted so the next put replaces it)."""
+        data = self.get_entry(key)
+        return None if data is None else data[:data.rfind(_MARK)]
+
+    def get_entry(self, key: str) -> bytes | None:
+        """The whole entry under ``key`` (the SVG and its trailer: the bytes a site
+        publishes, see ``entry_bytes``) once it passes its checks, else None as ``get``."""
         path = self.entry_name(key)
         try:
             with open(path, "rb") as fh:
@@ -82,24 +88,35 @@ class ChartCache:
                 pass
             return None
         self.hits += 1
-        return svg
+        return data
 
-    def put(self, key: str, svg: bytes) -> None:
-        """Store ``svg`` under ``key`` atomically; a cache that cannot be written is skipped
-        (the build still publishes the freshly drawn chart)."""
+    def put(self, key: str, svg: bytes) -> bool:
+        """Store ``svg`` under ``key`` atomically (as ``entry_bytes``, with the permissions
+        of any new file, so a site may hard-link it); False when the cache cannot be
+        written (the build still publishes the freshly drawn chart)."""
         path = self.entry_name(key)
-        trailer = (f"<!-- thermofolio-cache sha256={hashlib.sha256(svg).hexdigest()} "
-                   f"bytes={len(svg)} -->\n").encode()
         try:
             os.makedirs(os.path.dirname(path), exist_ok=True)
-            write_atomically(path, (svg, trailer))
+            write_atomically(path, (entry_bytes(svg),), mode=0o666)
         except OSError:
-            return
+            return False
+        return True
+
+
+_MARK = b"<!-- thermofolio-cache "
+
+
+def entry_bytes(svg: bytes) -> bytes:
+    """``svg`` with its trailer: one comment line after the document holding the sha256 and
+    length of the document's bytes.  Published charts are these bytes too, whether they
+    came from the cache or not, so the site is the same with or without a cache."""
+    return svg + (f"<!-- thermofolio-cache sha256={hashlib.sha256(svg).hexdigest()} "
+                  f"bytes={len(svg)} -->\n").encode()
 
 
 def _verified(data: bytes) -> bytes | None:
     """The document part of an entry if its length, sha256 and shape check out."""
-    cut = data.rfind(b"<!-- thermofolio-cache ")
+    cut = data.rfind(_MARK)
     if cut < 0:
         return None
     match = _TRAILER.match(data, cut)

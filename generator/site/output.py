@@ -11,7 +11,9 @@ carry the marker (or are empty), so nothing else is ever deleted.
 
 A file whose bytes equal the previous site's file is not rewritten: the old file is
 hard-linked (or, across file systems, copied with its times) into the new tree, so its
-modification time stays and mirrors copy only what changed.  When nothing at all changed the
+modification time stays and mirrors copy only what changed.  A new file whose bytes a chart
+cache entry already holds is hard-linked from that entry (creating thousands of files with
+data costs far more than linking them on some file systems).  When nothing at all changed the
 previous site is left exactly as it is and no swap happens.
 """
 
@@ -147,9 +149,12 @@ def clean_leftovers(out: Path) -> None:
             shutil.rmtree(leftover, ignore_errors=True)
 
 
-def write_site(out: Path, files: Mapping[str, bytes]) -> WriteResult:
+def write_site(out: Path, files: Mapping[str, bytes],
+               sources: Mapping[str, str] | None = None) -> WriteResult:
     """Write ``files`` (site path -> bytes, plus the marker) as the folder ``out``, atomically
-    as far as the file system allows; on any failure the previous site stays as it was."""
+    as far as the file system allows; on any failure the previous site stays as it was.
+    ``sources``: for some paths, a file already holding exactly their bytes (a chart cache
+    entry), hard-linked into the new tree instead of written again."""
     out = Path(os.path.abspath(out))
     clean_leftovers(out)
     everything = {**files, MARKER: MARKER_TEXT}
@@ -169,6 +174,7 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> WriteResult:
     else:
         (tmp / MARKER).write_bytes(MARKER_TEXT)
     aside: Path | None = None
+    new_mode = _new_file_mode()
     try:
         tmp_s = str(tmp)
         made: set[str] = {tmp_s}
@@ -182,7 +188,8 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> WriteResult:
                 made.add(parent)
             if rel in same:
                 _keep(os.path.join(out_s, native[rel]), target)
-            else:
+            elif not (sources and rel in sources and
+                      _linked(sources[rel], target, everything[rel], new_mode)):
                 Path(target).write_bytes(everything[rel])
         os.chmod(tmp, 0o755)
         if out.exists() and _exchange(tmp, out):
@@ -207,6 +214,27 @@ def write_site(out: Path, files: Mapping[str, bytes]) -> WriteResult:
         shutil.rmtree(aside, ignore_errors=True)
     return WriteResult(rewritten=len(everything) - len(same), kept=len(same),
                        removed=removed, swapped=True)
+
+
+def _new_file_mode() -> int:
+    """The permission bits a file written now gets (0o666 less the umask)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
+def _linked(source: str, target: str, data: bytes, mode: int) -> bool:
+    """Hard-link ``source`` as ``target`` when it holds ``data``'s length and the permissions
+    a written file would get; False (nothing made) otherwise or when linking fails (another
+    file system, say).  The source's bytes were checked when it was read."""
+    try:
+        st = os.stat(source)
+        if st.st_size != len(data) or stat.S_IMODE(st.st_mode) != mode:
+            return False
+        os.link(source, target)
+    except OSError:
+        return False
+    return True
 
 
 def _keep(old: str | Path, new: str | Path) -> None:

@@ -36,7 +36,7 @@ from generator.neighbourhood import Digester, digester_for, item_view
 from generator.progress import Progress
 from generator.results_cache import ResultsCache
 from generator.site import assets, markdown_notes, output, pages
-from generator.site.chart_cache import ChartCache, cache_key, default_folder
+from generator.site.chart_cache import ChartCache, cache_key, default_folder, entry_bytes
 
 NOT_IN_GIT = "not under version control"
 SPECIES_CSV = ("T", "Cp", "H_minus_H298", "S", "G", "gef", "dfH", "u.dfH", "dfG", "u.dfG",
@@ -183,18 +183,25 @@ def _renderer_name() -> str:
 
 def draw_charts(specs: Mapping[str, object], digests: Mapping[str, str],
                 cache: ChartCache | None, jobs: int, quiet: bool = False,
-                start: float | None = None) -> tuple[dict[str, bytes], ChartStats]:
-    """SVG bytes per chart path: sound cache entries first, the rest drawn once in a pool of
-    ``jobs`` processes and stored back.  matplotlib is imported only if something is drawn."""
+                start: float | None = None
+                ) -> tuple[dict[str, bytes], ChartStats, dict[str, str]]:
+    """The published bytes per chart path (chart_cache.entry_bytes: the SVG and its
+    integrity trailer): sound cache entries first, the rest drawn once in a pool of ``jobs``
+    processes and stored back; and for each chart whose bytes are a cache entry's, that
+    entry's file (the writer hard-links it into the site instead of writing the bytes
+    again).  matplotlib is imported only if something is drawn."""
     renderer = _renderer_name()
     out: dict[str, bytes] = {}
+    sources: dict[str, str] = {}
     todo: list[str] = []
     for path in sorted(digests):
-        svg = cache.get(cache_key(digests[path], renderer)) if cache is not None else None
-        if svg is None:
+        key = cache_key(digests[path], renderer)
+        entry = cache.get_entry(key) if cache is not None else None
+        if entry is None:
             todo.append(path)
         else:
-            out[path] = svg
+            out[path] = entry
+            sources[path] = cache.entry_name(key)
     if todo:
         bar = Progress("drawing charts", len(todo), quiet=quiet, start=start)
         todo_specs = [chart_spec(specs[p]) for p in todo]
@@ -205,12 +212,13 @@ def draw_charts(specs: Mapping[str, object], digests: Mapping[str, str],
             drawn = render_many(todo_specs, n_jobs, bar.update)
         bar.close()
         for path, svg in zip(todo, drawn, strict=True):
-            out[path] = svg
-            if cache is not None:
-                cache.put(cache_key(digests[path], renderer), svg)
+            out[path] = entry_bytes(svg)
+            key = cache_key(digests[path], renderer)
+            if cache is not None and cache.put(key, svg):
+                sources[path] = cache.entry_name(key)
     rejected = cache.rejected if cache is not None else 0
     return out, ChartStats(total=len(out), drawn=len(todo), cached=len(out) - len(todo),
-                           rejected=rejected)
+                           rejected=rejected), sources
 
 
 # --- exports (pure) ------------------------------------------------------------------------
@@ -558,11 +566,12 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
     digests = {**whole.digests, **items.digests}
     page_paths = sorted(whole.page_paths + items.page_paths)
     cache = chart_cache_for(args, root)
-    charts, stats = draw_charts(specs, digests, cache, jobs, quiet=quiet, start=start_time)
+    charts, stats, chart_files = draw_charts(specs, digests, cache, jobs, quiet=quiet,
+                                             start=start_time)
     files.update(charts)
     files[manifest.MANIFEST] = manifest.manifest_bytes(files, page_paths, computed, meta)
     try:
-        result = output.write_site(out, files)
+        result = output.write_site(out, files, chart_files)
     except OSError as exc:
         print(f"thermofolio build: cannot write {out}: {exc}; the previous site is unchanged",
               file=sys.stderr)
