@@ -1,15 +1,17 @@
 """The results cache: computed numbers and rendered sheets of single items, kept between builds.
 
-Each entry belongs to one item and one kind of work (``reaction`` engine numbers, ``design``
-numbers, ``sheet`` files) and is stored under ``<cache>/results/<kind>/<name>.pickle``,
-``name`` a digest of the item id, so there is at most one entry per item and kind: a changed
-item overwrites its own entry and the cache never grows past the handbook.  An entry holds
-the key it was made for (generator.neighbourhood's digest of everything the work could see,
-salted with ``code_identity``: the package's code and templates and the library versions),
-the sha256 and length of its payload, then the payload.  A get with any other key, or an
-entry whose payload fails its checks (truncated, corrupted), is a miss and the work is done
-again; nothing unverified is ever used.  Entries are written to a temporary file and renamed
-into place.
+Each entry belongs to one item and one kind of work (``source`` file readings, ``species``
+curves, ``reaction`` engine numbers, ``design`` numbers, ``sheet`` files) and is one row of
+the SQLite database ``<cache>/results.sqlite`` with the primary key (kind, item), so there is
+at most one entry per item and kind: a changed item overwrites its own entry and the cache
+never grows past the handbook.  A row holds the key it was made for (generator.neighbourhood's
+digest of everything the work could see, salted with ``code_identity``: the package's code
+and templates and the library versions), the sha256 and length of its payload, then the
+payload.  A get with any other key, or a row whose payload fails its checks (truncated,
+corrupted), is a miss and the work is done again; nothing unverified is ever used.  One
+database file instead of a file per entry: creating thousands of files costs far more than
+writing the same bytes into one on some file systems, and SQLite (Python's standard library)
+gives atomic writes and locking between the worker processes without code of ours.
 
 The payload is a pickle: the folder is trusted like the sources and the code beside it (it
 is the user's own, default ``.thermofolio-cache`` beside the sources); the checks guard
@@ -22,13 +24,12 @@ import hashlib
 import os
 import pickle
 import re
+import sqlite3
 import sys
 from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any, Protocol
 
-FOLDER = "results"
-_HEAD = re.compile(rb"thermofolio-result 1 ([0-9a-f]{64}) ([0-9a-f]{64}) ([0-9]+)\n")
 LIBRARIES = ("numpy", "matplotlib", "jinja2", "markupsafe", "markdown", "nh3", "pint",
              "pyyaml", "molmass")
 
@@ -96,46 +97,90 @@ class ResultStore(Protocol):
 
 
 class ResultsCache:
-    """Get and put one pickled result per (kind, item) under a key; counts hits, misses
-    and rejected entries.  A cache that cannot be written is skipped silently (the build
-    still has the result it just made)."""
+    """Get and put one pickled result per (kind, item) under a key, in one SQLite database
+    (``<cache>/results.sqlite``); counts hits, misses and rejected entries.  A cache that
+    cannot be read or written is skipped silently (the build still has the result it just
+    made); a database that is not one any more is set aside and started afresh.
+
+    Each process opens its own connection (a forked worker never uses its parent's), in
+    autocommit mode: one row is one transaction.  Write-ahead logging lets workers read
+    while another writes; ``synchronous=NORMAL`` keeps the file sound after a crash at the
+    price of the last writes, which a cache can lose."""
 
     def __init__(self, folder: Path, salt: str | None = None) -> None:
-        self.folder = Path(folder) / FOLDER
+        self.path = os.path.join(os.path.abspath(folder), DATABASE)
         self.salt = code_identity() if salt is None else salt
-        self._made: set[str] = set()
+        self._db: sqlite3.Connection | None = None
+        self._pid = -1
         self.hits = 0
         self.misses = 0
         self.rejected = 0
 
+    def __getstate__(self) -> dict:
+        return {**self.__dict__, "_db": None, "_pid": -1}  # a connection does not travel
+
     def key(self, digest: str) -> str:
         return hashlib.sha256(f"{self.salt}\0{digest}".encode()).hexdigest()
 
-    def entry(self, kind: str, item: str) -> Path:
-        return Path(self._entry(kind, item))
+    def _connection(self) -> sqlite3.Connection:
+        if self._db is None or self._pid != os.getpid():
+            self._db = None  # a parent's connection is left alone, never closed here
+            os.makedirs(os.path.dirname(self.path), exist_ok=True)
+            db = sqlite3.connect(self.path, timeout=60.0, isolation_level=None,
+                                 check_same_thread=False)
+            try:
+                db.execute("pragma journal_mode=wal")
+                db.execute("pragma synchronous=normal")
+                db.execute(_SCHEMA)
+            except sqlite3.DatabaseError:
+                db.close()
+                raise
+            self._db, self._pid = db, os.getpid()
+        return self._db
 
-    def _entry(self, kind: str, item: str) -> str:
-        if not re.fullmatch(r"[a-z]+", kind):
-            raise ValueError(f"not a result kind: {kind!r}")
-        name = hashlib.sha256(item.encode("utf-8")).hexdigest()[:40]
-        return os.path.join(self.folder, kind, f"{name}.pickle")
+    def _set_aside(self) -> None:
+        """Move a damaged database out of the way (the next use starts a new one)."""
+        if self._db is not None and self._pid == os.getpid():
+            self._db.close()
+        self._db = None
+        for suffix in ("", "-wal", "-shm"):
+            try:
+                os.replace(self.path + suffix, f"{self.path}.damaged{suffix}")
+            except OSError:
+                pass
+
+    def _run(self, sql: str, args: tuple) -> list:
+        """``sql`` on this process's connection; a damaged database is set aside once and
+        the statement tried on a fresh one; other failures raise sqlite3.Error."""
+        for attempt in (0, 1):
+            try:
+                return self._connection().execute(sql, args).fetchall()
+            except sqlite3.OperationalError:
+                raise  # busy past the timeout, read-only folder, ...: not damage
+            except sqlite3.DatabaseError:
+                if attempt:
+                    raise
+                self._set_aside()
+        raise AssertionError("unreachable")
 
     def get(self, kind: str, item: str, digest: str):
         """The result stored for ``item`` under ``digest``, or None."""
+        _check_kind(kind)
         try:
-            with open(self._entry(kind, item), "rb") as fh:
-                data = fh.read()
-        except OSError:
+            rows = self._run("select key, sha256, length, payload from entry "
+                             "where kind = ? and item = ?", (kind, item))
+        except (sqlite3.Error, OSError):
+            rows = []
+        if not rows:
             self.misses += 1
             return None
-        m = _HEAD.match(data)
-        payload = data[m.end():] if m else b""
-        if m is None or len(payload) != int(m.group(3)) or \
-                hashlib.sha256(payload).hexdigest().encode() != m.group(2):
+        key, sha, length, payload = rows[0]
+        payload = bytes(payload) if isinstance(payload, bytes | memoryview) else b""
+        if len(payload) != length or hashlib.sha256(payload).hexdigest() != sha:
             self.rejected += 1
             self.misses += 1
             return None
-        if m.group(1).decode() != self.key(digest):
+        if key != self.key(digest):
             self.misses += 1
             return None
         try:
@@ -148,18 +193,26 @@ class ResultsCache:
         return result
 
     def put(self, kind: str, item: str, digest: str, result) -> None:
-        path = self._entry(kind, item)
+        _check_kind(kind)
         payload = pickle.dumps(result, protocol=5)
-        head = (f"thermofolio-result 1 {self.key(digest)} "
-                f"{hashlib.sha256(payload).hexdigest()} {len(payload)}\n").encode()
-        folder = os.path.dirname(path)
         try:
-            if folder not in self._made:
-                os.makedirs(folder, exist_ok=True)
-                self._made.add(folder)
-            write_atomically(path, (head, payload))
-        except OSError:
+            self._run("insert or replace into entry (kind, item, key, sha256, length, payload) "
+                      "values (?, ?, ?, ?, ?, ?)",
+                      (kind, item, self.key(digest), hashlib.sha256(payload).hexdigest(),
+                       len(payload), payload))
+        except (sqlite3.Error, OSError):
             return
+
+
+DATABASE = "results.sqlite"
+_SCHEMA = ("create table if not exists entry (kind text not null, item text not null, "
+           "key text not null, sha256 text not null, length integer not null, "
+           "payload blob not null, primary key (kind, item))")
+
+
+def _check_kind(kind: str) -> None:
+    if not re.fullmatch(r"[a-z]+", kind):
+        raise ValueError(f"not a result kind: {kind!r}")
 
 
 def write_atomically(path: str, chunks, mode: int = 0o600) -> None:

@@ -15,8 +15,10 @@ import json
 import os
 import re
 import shutil
+import sqlite3
 import subprocess
 import sys
+from contextlib import closing
 from pathlib import Path
 
 import numpy as np
@@ -35,7 +37,7 @@ from generator.neighbourhood import (
     reaction_handbook,
     reaction_view,
 )
-from generator.results_cache import ResultsCache
+from generator.results_cache import DATABASE, ResultsCache, kept_or_made
 from generator.site import pages
 from generator.thermo.species_props import formation_coefficients, formation_functions
 
@@ -178,6 +180,20 @@ def test_sheet_digests_are_the_same_in_every_process_fresh_or_cached(tmp_path) -
 # --- the results cache ----------------------------------------------------------------------
 
 
+def _rows(cache: Path, kind: str) -> dict[str, tuple[int, bytes]]:
+    """item -> (rowid, payload) of one kind, read straight from the database."""
+    with closing(sqlite3.connect(cache / DATABASE)) as db:
+        return {item: (rowid, bytes(payload)) for rowid, item, payload in db.execute(
+            "select rowid, item, payload from entry where kind = ?", (kind,))}
+
+
+def _set_payload(cache: Path, kind: str, item: str, payload: bytes) -> None:
+    with closing(sqlite3.connect(cache / DATABASE)) as db:
+        db.execute("update entry set payload = ? where kind = ? and item = ?",
+                   (payload, kind, item))
+        db.commit()
+
+
 def test_results_cache_round_trip_key_and_damage(tmp_path) -> None:
     cache = ResultsCache(tmp_path, salt="code-1")
     cache.put("sheet", "species:x", "d1", {"a": np.arange(4.0)})
@@ -185,15 +201,47 @@ def test_results_cache_round_trip_key_and_damage(tmp_path) -> None:
     assert got["a"].tolist() == [0.0, 1.0, 2.0, 3.0]
     assert cache.get("sheet", "species:x", "d2") is None  # another key: a miss
     assert ResultsCache(tmp_path, salt="code-2").get("sheet", "species:x", "d1") is None
-    entry = cache.entry("sheet", "species:x")
-    data = entry.read_bytes()
-    entry.write_bytes(data[:-3])  # truncated
+    data = _rows(tmp_path, "sheet")["species:x"][1]
+    _set_payload(tmp_path, "sheet", "species:x", data[:-3])  # truncated
     assert cache.get("sheet", "species:x", "d1") is None and cache.rejected == 1
-    entry.write_bytes(data[:-1] + bytes([data[-1] ^ 1]))  # one bit flipped
+    _set_payload(tmp_path, "sheet", "species:x", data[:-1] + bytes([data[-1] ^ 1]))  # a bit
     assert cache.get("sheet", "species:x", "d1") is None and cache.rejected == 2
     cache.put("sheet", "species:x", "d1", 7)
     assert cache.get("sheet", "species:x", "d1") == 7
-    assert len(list((tmp_path / "results" / "sheet").iterdir())) == 1  # one entry per item
+    assert list(_rows(tmp_path, "sheet")) == ["species:x"]  # one entry per item and kind
+
+
+def test_a_damaged_results_database_is_set_aside(tmp_path) -> None:
+    ResultsCache(tmp_path, salt="s").put("reaction", "r1", "d", 1.5)
+    for suffix in ("-wal", "-shm"):
+        (tmp_path / (DATABASE + suffix)).unlink(missing_ok=True)
+    (tmp_path / DATABASE).write_bytes(b"not a database at all " * 200)
+    cache = ResultsCache(tmp_path, salt="s")
+    assert cache.get("reaction", "r1", "d") is None  # a miss, not an error
+    assert (tmp_path / f"{DATABASE}.damaged").exists()
+    cache.put("reaction", "r1", "d", 2.5)
+    assert cache.get("reaction", "r1", "d") == 2.5
+
+
+def _value_and_pid(shared: int, item: str) -> tuple[int, int]:
+    return shared + int(item[1:]), os.getpid()
+
+
+def test_forked_workers_write_the_same_database(tmp_path, monkeypatch) -> None:
+    from generator import parallel
+
+    monkeypatch.setattr(parallel, "MIN_ITEMS", 2)
+    cache = ResultsCache(tmp_path, salt="s")
+    cache.put("species", "parent", "d", 0)  # the parent's connection is open at the fork
+    items = [f"i{n}" for n in range(40)]
+    got = kept_or_made(cache, "reaction", {i: f"d-{i}" for i in items}, tuple,
+                       _value_and_pid, 100, jobs=2)
+    assert {i: v for i, (v, _pid) in got.items()} == {i: 100 + int(i[1:]) for i in items}
+    assert os.getpid() not in {pid for _v, pid in got.values()}  # made in the workers
+    fresh = ResultsCache(tmp_path, salt="s")
+    assert all(fresh.get("reaction", i, f"d-{i}") == got[i] for i in items)
+    assert fresh.get("species", "parent", "d") == 0
+    assert cache.get("species", "parent", "d") == 0  # the parent's connection still works
 
 
 # --- (2) rebuilds publish what a clean build publishes ---------------------------------------
@@ -213,8 +261,8 @@ def _tree(folder: Path) -> dict[str, bytes]:
 
 
 def _sheet_entries(cache: Path) -> dict[str, int]:
-    folder = cache / "results" / "sheet"
-    return {p.name: p.stat().st_mtime_ns for p in folder.iterdir()}
+    """item -> rowid of each sheet entry (a rewritten entry gets a new row)."""
+    return {item: rowid for item, (rowid, _payload) in _rows(cache, "sheet").items()}
 
 
 def _expected_after_editing(hb, sid: str) -> set[str]:
@@ -257,8 +305,7 @@ def test_edit_redoes_only_its_neighbourhood_and_publishes_what_a_clean_build_doe
     redone = {name for name in after if after[name] != before.get(name)}
     hb, _ = load_handbook(src)
     expected = _expected_after_editing(hb, "methane")
-    entry = ResultsCache(cache).entry
-    assert redone == {entry("sheet", k).name for k in expected}
+    assert redone == expected
     assert rendered == len(expected) < total
     clean = tmp_path / "clean"
     _build(src, clean, capsys, "--no-cache")
@@ -271,13 +318,13 @@ def test_damaged_results_are_redone_never_used(tmp_path, capsys) -> None:
     _build(src, out, capsys, "--cache", str(cache))
     damaged = 0
     for kind in ("sheet", "reaction", "design", "species"):
-        for i, entry in enumerate(sorted((cache / "results" / kind).iterdir())):
-            data = bytearray(entry.read_bytes())
+        for i, (item, (_rowid, payload)) in enumerate(sorted(_rows(cache, kind).items())):
+            data = bytearray(payload)
             if i % 2:
                 data[-1] ^= 0x55  # corrupted payload
             else:
                 del data[len(data) // 2:]  # truncated
-            entry.write_bytes(bytes(data))
+            _set_payload(cache, kind, item, bytes(data))
             damaged += 1
     assert damaged > 100
     shutil.rmtree(out)  # no build stamp short-cut: the whole site is written again
