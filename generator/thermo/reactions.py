@@ -160,8 +160,18 @@ def crossover_temperatures(nu: Mapping[str, float], species: Mapping[str, Specie
     to CROSSOVER_TOL_K by repeated subdivision into REFINE_POINTS points (a vectorised
     bisection); a grid point exactly at zero counts once."""
 
+    terms = sorted(nu.items())
+    members = [species[sid] for sid, _n in terms]
+
     def drG(T: np.ndarray) -> np.ndarray:
-        return reaction_functions(nu, species, T, remember=False).drG
+        """reaction_functions(...).drG by the same operations, without the rest."""
+        table = species_table(members, T)
+        drH = np.zeros_like(T)
+        drS = np.zeros_like(T)
+        for i, (_sid, n) in enumerate(terms):
+            drH = drH + n * table.H[i]
+            drS = drS + n * table.S[i]
+        return drH - T * drS / 1000.0
 
     grid = np.linspace(lo, hi, CROSSOVER_GRID)
     g = drG(grid)
