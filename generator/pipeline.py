@@ -26,7 +26,7 @@ def load_and_compute(root: Path, jobs: int = 1, results: ResultStore | None = No
     """Load and validate the sources, then compute them (``jobs`` processes; per-reaction
     numbers kept in ``results`` between builds) and run the consistency checks; the
     findings of both steps together (no computation when loading failed)."""
-    handbook, findings = load_handbook(root, results)
+    handbook, findings = load_handbook(root, results, jobs)
     if handbook is None:
         return None, None, findings
     from generator.compute import compute_handbook

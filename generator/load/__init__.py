@@ -44,14 +44,13 @@ def _yaml_files(folder: Path) -> list[Path]:
 
 
 def _read_items(folder: Path, read, kind: str, findings: list[Finding],
-               results: ResultStore | None = None) -> dict:
+               results: ResultStore | None = None, jobs: int = 1) -> dict:
     """One item per YAML file in ``folder``, by id; a second file with an id is an error.
     With ``results``, each file's item and findings are kept under the digest of its
-    path and bytes (the reader sees nothing else), and reused while they are unchanged."""
+    path and bytes (the reader sees nothing else), and reused while they are unchanged;
+    the files still to read are parsed by ``jobs`` forked processes."""
     items: dict = {}
-    for file in _yaml_files(folder):
-        path = display_path(file)
-        item, own = _read_item(file, path, read, kind, results)
+    for item, own in _readings(_yaml_files(folder), read, kind, results, jobs):
         findings += own
         if item is None:
             continue
@@ -64,34 +63,47 @@ def _read_items(folder: Path, read, kind: str, findings: list[Finding],
     return items
 
 
-def _read_item(file: Path, path: str, read, kind: str, results: ResultStore | None):
-    """(item or None, the file's findings)."""
-    raw, own = read_source_bytes(file, path)
-    if raw is None:
-        return None, own
-    digest = None
-    if results is not None:
+def _readings(files: list[Path], read, kind: str, results: ResultStore | None,
+              jobs: int) -> list[tuple]:
+    """(item or None, the file's findings) of each file, in order."""
+    from generator.results_cache import kept_or_made
+
+    out: list[tuple | None] = []
+    raws: dict[str, tuple[bytes, str]] = {}
+    digests: dict[str, str] = {}
+    for file in files:
+        path = display_path(file)
+        raw, own = read_source_bytes(file, path)
+        if raw is None:
+            out.append((None, own))
+            continue
+        name = f"{kind}:{path}"
         h = hashlib.sha256(f"{kind}\0{path}\0".encode())
         h.update(raw)
-        digest = h.hexdigest()
-        hit = results.get("source", f"{kind}:{path}", digest)
-        if isinstance(hit, tuple) and len(hit) == 2:
-            return hit
+        digests[name], raws[name] = h.hexdigest(), (raw, path)
+        out.append(None)
+    done = kept_or_made(results, "source", digests, tuple, _parse_item, (raws, read), jobs)
+    names = iter(digests)
+    return [r if r is not None else done[next(names)] for r in out]
+
+
+def _parse_item(shared: tuple, name: str) -> tuple:
+    """(item or None, findings) of one file's bytes."""
+    raws, read = shared
+    raw, path = raws[name]
     doc, own = parse_yaml_bytes(raw, path)
     own = list(own)
     item = None
     if doc is not None or not own:
         item = read(FileReader(path, own), doc)
-    if results is not None and digest is not None:
-        results.put("source", f"{kind}:{path}", digest, (item, own))
     return item, own
 
 
-def load_handbook(root: Path, results: ResultStore | None = None
+def load_handbook(root: Path, results: ResultStore | None = None, jobs: int = 1
                   ) -> tuple[Handbook | None, list[Finding]]:
     """Read and check every source file under ``root``; the handbook is None on any error.
     ``results`` (generator.results_cache) keeps each species and reaction file's reading
-    between builds."""
+    between builds; ``jobs`` forked processes parse the species and reaction files."""
     findings: list[Finding] = []
     root = Path(root)
     if not root.is_dir():
@@ -132,9 +144,9 @@ def load_handbook(root: Path, results: ResultStore | None = None
                 references[ref.key] = ref
 
     species: dict[str, Species] = _read_items(root / "species", read_species, "species",
-                                              findings, results)
+                                              findings, results, jobs)
     raw_reactions: dict[str, RawReaction] = _read_items(root / "reactions", read_reaction,
-                                                        "reaction", findings, results)
+                                                        "reaction", findings, results, jobs)
 
     reactions = resolve_reactions(raw_reactions, species, findings)
     if settings is not None:
