@@ -418,3 +418,17 @@ def test_real_charts_are_drawn_and_linked(tmp_path: Path, monkeypatch) -> None:
     first = svgs[0].read_bytes()
     assert build(MINI, out) == 0  # the second build reuses the drawn chart
     assert (out / "charts" / svgs[0].name).read_bytes() == first
+
+
+def test_dict_attribute_lookup_keeps_jinja_semantics() -> None:
+    from generator.site.assets import environment
+
+    env = environment()
+    template = env.from_string("{{ d.a }}|{{ d.items is defined }}|{{ o.real }}|{{ d['b'] }}")
+    assert template.render(d={"a": "<x>", "b": 2}, o=3) == "&lt;x&gt;|True|3|2"
+    # a key named like a dict method still gives the method, as jinja2 itself does
+    assert env.from_string("{{ d.keys is callable }}").render(d={"keys": 1}) == "True"
+    import jinja2
+
+    with pytest.raises(jinja2.UndefinedError, match="no attribute 'missing'"):
+        env.from_string("{{ d.missing }}").render(d={})
