@@ -66,6 +66,24 @@ def _enthalpy_curve(amounts: Mapping[str, float], species: Mapping[str, Species]
     return total, extrap
 
 
+def _enthalpies(sets, species: Mapping[str, Species], T: np.ndarray) -> list[tuple]:
+    """``_enthalpy_curve`` of each mapping of amounts in ``sets`` over the same ``T``, from
+    one table of every species any of them holds (each sum in its own order, so the numbers
+    are those of separate calls)."""
+    present = [[(sid, n) for sid, n in amounts.items() if n > 0] for amounts in sets]
+    members = list(dict.fromkeys(sid for terms in present for sid, _n in terms))
+    table = species_table([species[sid] for sid in members], T.ravel()) if members else None
+    row = {sid: i for i, sid in enumerate(members)}
+    out = []
+    for terms in present:
+        total, extrap = np.zeros_like(T), np.zeros(T.shape, dtype=bool)
+        for sid, n in terms:
+            total = total + n * table.H[row[sid]].reshape(T.shape)
+            extrap = extrap | table.extrapolated[row[sid]].reshape(T.shape)
+        out.append((total, extrap))
+    return out
+
+
 def _enthalpy(amounts: Mapping[str, float], species: Mapping[str, Species], T: float
               ) -> tuple[float, bool]:
     """sum n_i H_i(T) (kJ) and whether any species present is extrapolated at T."""
@@ -104,14 +122,16 @@ def adiabatic_temperature(nu: Mapping[str, float], species: Mapping[str, Species
     if limiting is not None:
         outlet[limiting] = 0.0  # exactly used up
     outlet = {s: max(n, 0.0) for s, n in outlet.items()}
-    H_in, _ = _enthalpy(feed, species, T_in)
+    # the feed at T_in and the outlet at T_in and both ends of the search, in one table
+    (h_feed, _), (h_out, _) = _enthalpies((feed, outlet), species,
+                                          np.array([float(T_in), T_MIN, T_MAX]))
+    H_in = float(h_feed[0])
+    at_T_in, at_lo, at_hi = (float(h) - H_in for h in h_out)
 
     def excess(T):
-        if np.ndim(T):
-            return _enthalpy_curve(outlet, species, T)[0] - H_in
-        return _enthalpy(outlet, species, T)[0] - H_in
+        return _enthalpy_curve(outlet, species, T)[0] - H_in
 
-    if not np.isfinite(H_in) or not np.isfinite(excess(T_in)):
+    if not np.isfinite(H_in) or not np.isfinite(at_T_in):
         return AdiabaticResult(T_in, float("nan"), float("nan"), xi, limiting, outlet,
                                note="a species lacks dfH or Cp data: no energy balance")
     lo, hi = T_MIN, T_MAX
@@ -119,10 +139,10 @@ def adiabatic_temperature(nu: Mapping[str, float], species: Mapping[str, Species
     if xi == 0:
         T_out = T_in
         note = "a reactant is missing from the feed: no reaction"
-    elif excess(hi) < 0:
+    elif at_hi < 0:
         T_out, capped = hi, True
         note = f"the energy balance does not close below {T_MAX:g} K"
-    elif excess(lo) > 0:
+    elif at_lo > 0:
         T_out, capped = lo, True
         note = f"the energy balance does not close above {T_MIN:g} K"
     else:
