@@ -163,18 +163,20 @@ def crossover_temperatures(nu: Mapping[str, float], species: Mapping[str, Specie
     terms = sorted(nu.items())
     members = [species[sid] for sid, _n in terms]
 
-    def drG(T: np.ndarray) -> np.ndarray:
-        """reaction_functions(...).drG by the same operations, without the rest."""
-        table = species_table(members, T)
+    def drG(T: np.ndarray, remember: bool = False) -> np.ndarray:
+        """reaction_functions(...).drG by the same operations, without the rest; the first
+        grid depends only on the covered range, which reactions share, so its species
+        values are remembered."""
+        H, S, _Cp, _ex = _species_columns(members, T, remember)
         drH = np.zeros_like(T)
         drS = np.zeros_like(T)
         for i, (_sid, n) in enumerate(terms):
-            drH = drH + n * table.H[i]
-            drS = drS + n * table.S[i]
+            drH = drH + n * H[i]
+            drS = drS + n * S[i]
         return drH - T * drS / 1000.0
 
     grid = np.linspace(lo, hi, CROSSOVER_GRID)
-    g = drG(grid)
+    g = drG(grid, remember=True)
     if np.all(np.abs(g) < 1e-12):
         return []  # identically zero: at equilibrium everywhere, no crossover to report
     ga, gb = g[:-1], g[1:]
