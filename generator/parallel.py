@@ -18,6 +18,7 @@ from collections.abc import Callable, Sequence
 from typing import Any
 
 MIN_ITEMS = 200  # fewer items than this are worked on in the calling process
+CHUNKS_PER_JOB = 8  # small enough that no worker idles long at the end of a split
 _TASK: tuple[Callable, Any] | None = None  # (fn, shared), set just before the fork
 
 
@@ -52,7 +53,7 @@ def fork_map(fn: Callable[[Any, Any], Any], items: Sequence, jobs: int, shared: 
         min_items = MIN_ITEMS
     if jobs < 2 or len(items) < min_items or not can_fork():
         return [fn(shared, x) for x in items]
-    n_chunks = min(len(items), 4 * jobs)
+    n_chunks = min(len(items), CHUNKS_PER_JOB * jobs)
     chunks = [items[i::n_chunks] for i in range(n_chunks)]  # interleaved: even loads
     _TASK = (fn, shared)
     # Everything alive now is moved out of the collector's sight while the workers run
