@@ -124,7 +124,9 @@ class ResultsCache:
 
     def _connection(self) -> sqlite3.Connection:
         if self._db is None or self._pid != os.getpid():
-            self._db = None  # a parent's connection is left alone, never closed here
+            if self._db is not None:  # a parent's, inherited by fork: never used or closed
+                _INHERITED.append(self._db)  # here (kept referenced, so never deallocated)
+            self._db = None
             os.makedirs(os.path.dirname(self.path), exist_ok=True)
             db = sqlite3.connect(self.path, timeout=60.0, isolation_level=None,
                                  check_same_thread=False)
@@ -205,6 +207,7 @@ class ResultsCache:
 
 
 DATABASE = "results.sqlite"
+_INHERITED: list[sqlite3.Connection] = []  # connections a forked process got from its parent
 _SCHEMA = ("create table if not exists entry (kind text not null, item text not null, "
            "key text not null, sha256 text not null, length integer not null, "
            "payload blob not null, primary key (kind, item))")
