@@ -222,6 +222,16 @@ def test_canonical_bytes_tell_apart_what_json_tells_apart() -> None:
     texts = [v.to_canonical_json() for v in variants]
     assert len(set(texts)) == len(texts) and len(set(blobs)) == len(blobs)
     assert line().canonical_bytes() == line().canonical_bytes()
+    from generator.charts.specs import _encode
+
+    def encoded(value) -> bytes:
+        out: list[bytes] = []
+        _encode(value, out)
+        return b"".join(out)
+
+    # mappings by sorted key (as the JSON text sorts them); 1 and 1.0 and "1" stay apart
+    assert encoded({"b": 1.0, "a": (2.0,)}) == encoded({"a": (2.0,), "b": 1.0})
+    assert len({encoded(1), encoded(1.0), encoded("1"), encoded(True), encoded(None)}) == 5
     # Two kinds with the same field values differ by kind.
     levels = (Level("a", "A", 1.0),)
     assert LevelDiagramSpec("t", "d", levels).canonical_bytes() != \

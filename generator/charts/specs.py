@@ -165,6 +165,11 @@ def _encode(obj: Any, out: list[bytes]) -> None:
         out.append(b"i%d;" % obj)
     elif obj is None:
         out.append(b"n")
+    elif t is dict:
+        out.append(b"m%d:" % len(obj))
+        for k in sorted(obj):
+            _encode(k, out)
+            _encode(obj[k], out)
     elif dataclasses.is_dataclass(obj):
         head, fields = _class_head(t)
         out.append(head)
