@@ -173,10 +173,32 @@ class ResultsCache:
                              "where kind = ? and item = ?", (kind, item))
         except (sqlite3.Error, OSError):
             rows = []
-        if not rows:
+        return self._checked(rows[0] if rows else None, digest)
+
+    def get_many(self, kind: str, digests: Mapping[str, str]) -> dict[str, Any]:
+        """``get`` of every item (the keys of ``digests``) in one query: the items with a
+        sound entry under their digest, each with its result."""
+        _check_kind(kind)
+        try:
+            rows = self._run("select item, key, sha256, length, payload from entry "
+                             "where kind = ?", (kind,))
+        except (sqlite3.Error, OSError):
+            rows = []
+        stored = {row[0]: row[1:] for row in rows if row[0] in digests}
+        found = {}
+        for item, digest in digests.items():
+            result = self._checked(stored.get(item), digest)
+            if result is not None:
+                found[item] = result
+        return found
+
+    def _checked(self, row: tuple | None, digest: str):
+        """The result in ``row`` (key, sha256, length, payload) if it passes every check
+        and was made under ``digest``, else None; counts hits, misses and rejections."""
+        if row is None:
             self.misses += 1
             return None
-        key, sha, length, payload = rows[0]
+        key, sha, length, payload = row
         payload = bytes(payload) if isinstance(payload, bytes | memoryview) else b""
         if len(payload) != length or hashlib.sha256(payload).hexdigest() != sha:
             self.rejected += 1
@@ -252,10 +274,10 @@ def kept_or_made(results: ResultStore | None, kind: str, digests: Mapping[str, s
 
     done: dict = {}
     if results is not None:
-        for item, digest in digests.items():
-            hit = results.get(kind, item, digest)
-            if isinstance(hit, result_type):
-                done[item] = hit
+        many = getattr(results, "get_many", None)
+        found = many(kind, digests) if many is not None else {
+            item: results.get(kind, item, digest) for item, digest in digests.items()}
+        done = {item: hit for item, hit in found.items() if isinstance(hit, result_type)}
     todo = [item for item in digests if item not in done]
 
     def make_and_keep(shared_: Any, item: str) -> Any:

@@ -211,6 +211,23 @@ def test_results_cache_round_trip_key_and_damage(tmp_path) -> None:
     assert list(_rows(tmp_path, "sheet")) == ["species:x"]  # one entry per item and kind
 
 
+def test_many_at_once_equals_one_by_one(tmp_path) -> None:
+    cache = ResultsCache(tmp_path, salt="s")
+    for n in range(6):
+        cache.put("design", f"r{n}", f"d{n}", {"n": n})
+    cache.put("species", "r0", "d0", "another kind")
+    data = _rows(tmp_path, "design")["r1"][1]
+    _set_payload(tmp_path, "design", "r1", data[:-2])  # damaged
+    asked = {"r0": "d0", "r1": "d1", "r2": "other digest", "r3": "d3", "gone": "d9"}
+    one = ResultsCache(tmp_path, salt="s")
+    singly = {i: one.get("design", i, d) for i, d in asked.items()}
+    many = ResultsCache(tmp_path, salt="s")
+    together = many.get_many("design", asked)
+    assert together == {i: r for i, r in singly.items() if r is not None}
+    assert set(together) == {"r0", "r3"}
+    assert (many.hits, many.misses, many.rejected) == (one.hits, one.misses, one.rejected)
+
+
 def test_a_damaged_results_database_is_set_aside(tmp_path) -> None:
     ResultsCache(tmp_path, salt="s").put("reaction", "r1", "d", 1.5)
     for suffix in ("-wal", "-shm"):
