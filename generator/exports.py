@@ -30,24 +30,19 @@ SIGNIFICANT = 10  # digits kept in exported numbers, so exports are byte-stable
 
 def num(x: float | None) -> float | None:
     """A finite float rounded to SIGNIFICANT digits, or None."""
-    if x is None:
-        return None
-    x = float(x)
-    if not math.isfinite(x):
-        return None
-    if x == 0.0:
-        return 0.0
-    return float(f"{x:.{SIGNIFICANT}g}")
+    return nums([x])[0]
 
 
 _FMT = f"{{:.{SIGNIFICANT}g}}".format
 
 
 def nums(values) -> list[float | None]:
-    """``num`` of every value of a 1-D array (or sequence), in one pass."""
-    xs = values.tolist() if hasattr(values, "tolist") else [float(v) for v in values]
+    """Each value of a 1-D array or sequence rounded to SIGNIFICANT digits; None for a
+    missing or non-finite value (-0.0 becomes 0.0)."""
+    xs = values.tolist() if hasattr(values, "tolist") else \
+        [None if v is None else float(v) for v in values]
     isfinite, fmt = math.isfinite, _FMT
-    return [float(fmt(x)) + 0.0 if isfinite(x) else None for x in xs]  # + 0.0: -0.0 -> 0.0
+    return [float(fmt(x)) + 0.0 if x is not None and isfinite(x) else None for x in xs]
 
 
 def reaction_rows(f: ReactionFunctions) -> list[dict]:

@@ -273,15 +273,20 @@ def test_number_formatting() -> None:
     assert pages.uncertainty(0.04, "kJ") == "± 0.040"
 
 
-def test_column_formatting_equals_cell_formatting() -> None:
-    values = [-285.83, -0.0001, 0.0, -0.0, 1e-9, float("nan"), float("inf"), None, 12.3456789,
-              -1e6, 0.0005, -0.0005]
-    for kind in pages.DECIMALS:
-        assert pages.fixed_all(values, kind) == [pages.fixed(v, kind) for v in values], kind
+def test_column_formatting() -> None:
     import numpy as np
 
-    arr = np.array([v for v in values if v is not None])
-    assert pages.fixed_all(arr, "kJ") == [pages.fixed(v, "kJ") for v in arr.tolist()]
+    values = [-285.83, -0.0001, 0.0, -0.0, 1e-9, float("nan"), float("inf"), None, 12.3456789,
+              -1e6, 0.0005, -0.0005, 3]
+    # Written out by hand: three decimals, U+2212 minus, no minus on a rounded zero, "—".
+    assert pages.fixed_all(values, "kJ") == [
+        "−285.830", "0.000", "0.000", "0.000", "0.000", "—", "—", "—", "12.346", "−1000000.000",
+        "0.001", "−0.001", "3.000"]
+    assert pages.fixed_all(values, "T") == [
+        "−285.83", "0.00", "0.00", "0.00", "0.00", "—", "—", "—", "12.35", "−1000000.00",
+        "0.00", "0.00", "3.00"]
+    arr = np.array([v for v in values if v is not None], dtype=float)
+    assert pages.fixed_all(arr, "kJ") == pages.fixed_all(arr.tolist(), "kJ")
 
 
 def test_number_cells_escape_like_the_template_would() -> None:

@@ -217,9 +217,15 @@ def write_site(out: Path, files: Mapping[str, bytes],
 
 
 def _new_file_mode() -> int:
-    """The permission bits a file written now gets (0o666 less the umask)."""
-    mask = os.umask(0o022)
-    os.umask(mask)
+    """The permission bits a file written now gets (0o666 less the umask), read from
+    /proc where it can be: setting the umask to read it would race other threads (the
+    preview server's)."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            mask = next(int(line.split()[1], 8) for line in fh if line.startswith("Umask:"))
+    except (OSError, StopIteration, ValueError, IndexError):
+        mask = os.umask(0o022)
+        os.umask(mask)
     return 0o666 & ~mask
 
 

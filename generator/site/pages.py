@@ -56,21 +56,17 @@ def _finite(x: float | None) -> bool:
 
 def fixed(x: float | None, kind: str) -> str:
     """``x`` with the fixed decimals of its kind (see DECIMALS), U+2212 minus, "—" if missing."""
-    if not _finite(x):
-        return MISSING
-    text = f"{float(x):.{DECIMALS[kind]}f}"
-    if float(text) == 0.0:
-        text = text.lstrip("-")
-    return text.replace("-", MINUS)
+    return fixed_all([x], kind)[0]
 
 
 def fixed_all(values, kind: str) -> list[str]:
-    """``fixed`` of every value of a 1-D array or sequence, in one pass (a table column)."""
+    """Each value of a 1-D array or sequence with the fixed decimals of ``kind`` (see
+    DECIMALS), U+2212 minus, "—" if missing or not finite; a -0.000 is written 0.000."""
     fmt = f"{{:.{DECIMALS[kind]}f}}".format
     isfinite = math.isfinite
     out = []
     for x in values.tolist() if hasattr(values, "tolist") else values:
-        if x is None or not isfinite(x):
+        if x is None or not isfinite(x := float(x)):
             out.append(MISSING)
             continue
         text = fmt(x)

@@ -487,19 +487,16 @@ def _merge(into: ItemBatch, b: ItemBatch) -> None:
     into.texts.update(b.texts)
 
 
-SHEET_CHUNKS_PER_JOB = 8
-
-
 def render_site(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
                 jobs: int, results: ResultsCache | None = None
                 ) -> tuple[ItemBatch, ItemBatch, int]:
     """Every page: (the sheets (render_sheet), the handbook pages, sheets rendered now rather
     than taken from ``results``).  With at least parallel.MIN_ITEMS items the work is split
     over ``jobs`` forked workers (generator.parallel): the handbook pages as four tasks
-    (pages.HANDBOOK_PARTS), the sheets as SHEET_CHUNKS_PER_JOB × ``jobs`` more."""
+    (pages.HANDBOOK_PARTS), the sheets as parallel.CHUNKS_PER_JOB × ``jobs`` more."""
     keys = pages.item_keys(computed)
     # many small chunks, so no worker idles long at the end while another finishes
-    n = SHEET_CHUNKS_PER_JOB * jobs if jobs > 1 and len(keys) >= parallel.MIN_ITEMS else 1
+    n = parallel.CHUNKS_PER_JOB * jobs if jobs > 1 and len(keys) >= parallel.MIN_ITEMS else 1
     whole: list = list(pages.HANDBOOK_PARTS) if n > 1 else [None]
     tasks: list = whole + [tuple(keys[i::n]) for i in range(n)]
     parts = parallel.fork_map(_render_task, tasks, jobs if n > 1 else 1,

@@ -53,23 +53,14 @@ def _enthalpy_curve(amounts: Mapping[str, float], species: Mapping[str, Species]
                     T: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """sum n_i H_i(T) (kJ) over the array ``T`` and where any species present is
     extrapolated."""
-    total, extrap = np.zeros_like(T), np.zeros(T.shape, dtype=bool)
-    present = [(sid, n) for sid, n in amounts.items() if n > 0]
-    if not present:
-        return total, extrap
-    # one table for every species present (its rows equal species_functions' values); the
-    # search's temperatures are asked for once, so they are not remembered
-    table = species_table([species[sid] for sid, _n in present], T.ravel())
-    for i, (_sid, n) in enumerate(present):
-        total = total + n * table.H[i].reshape(T.shape)
-        extrap = extrap | table.extrapolated[i].reshape(T.shape)
-    return total, extrap
+    return _enthalpies((amounts,), species, T)[0]
 
 
 def _enthalpies(sets, species: Mapping[str, Species], T: np.ndarray) -> list[tuple]:
-    """``_enthalpy_curve`` of each mapping of amounts in ``sets`` over the same ``T``, from
-    one table of every species any of them holds (each sum in its own order, so the numbers
-    are those of separate calls)."""
+    """sum n_i H_i(T) (kJ) and where any species present (n > 0) is extrapolated, for each
+    mapping of amounts in ``sets`` over the same ``T``: one species table for every species
+    any of them holds (its rows equal species_functions' values; the search's temperatures
+    are asked for once, so they are not remembered), each sum in its mapping's order."""
     present = [[(sid, n) for sid, n in amounts.items() if n > 0] for amounts in sets]
     members = list(dict.fromkeys(sid for terms in present for sid, _n in terms))
     table = species_table([species[sid] for sid in members], T.ravel()) if members else None
