@@ -122,6 +122,24 @@ _INLINE = json.JSONEncoder(sort_keys=True, ensure_ascii=False, allow_nan=False,
                            separators=(", ", ": "))
 
 
+_SCALARS = {str: json.encoder.encode_basestring, type(None): lambda _v: "null",
+            bool: lambda v: "true" if v else "false", int: int.__repr__}
+
+
+def _inline(value) -> str:
+    """``_INLINE.encode(value)``, with the encoder's own functions called directly for a
+    string, None, a bool, an int or a finite float (most of a document's calls)."""
+    t = type(value)
+    if t is float:
+        if math.isfinite(value):
+            return float.__repr__(value)
+    else:
+        scalar = _SCALARS.get(t)
+        if scalar is not None:
+            return scalar(value)
+    return _INLINE.encode(value)
+
+
 def json_text(doc, inline_depth: int = 2, _depth: int = 0, _pad: str = "") -> str:
     """``doc`` as JSON text, keys sorted: one key or item per line down to ``inline_depth``
     levels of nesting, every container deeper written on one line (a table row per line).
@@ -129,10 +147,10 @@ def json_text(doc, inline_depth: int = 2, _depth: int = 0, _pad: str = "") -> st
     The deep parts go through the json module's C encoder, which the indenting encoder never
     uses; the shallow layout is a few hundred lines at most."""
     if _depth >= inline_depth or not isinstance(doc, dict | list) or not doc:
-        return _INLINE.encode(doc)
+        return _inline(doc)
     inner = _pad + " "
     if isinstance(doc, dict):
-        parts = [f"{inner}{_INLINE.encode(str(k))}: "
+        parts = [f"{inner}{_inline(str(k))}: "
                  f"{json_text(doc[k], inline_depth, _depth + 1, inner)}" for k in sorted(doc)]
         return "{\n" + ",\n".join(parts) + "\n" + _pad + "}"
     parts = [inner + json_text(v, inline_depth, _depth + 1, inner) for v in doc]

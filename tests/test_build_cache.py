@@ -97,6 +97,33 @@ def test_editing_one_species_redraws_only_its_charts(tmp_path, recorder, capsys)
     assert rewritten == len(changed)
 
 
+
+def test_a_rebuild_reads_no_chart_that_is_a_link_of_its_cache_entry(tmp_path, recorder, capsys,
+                                                                     monkeypatch):
+    """The previous site's charts are links of the entries just read and checked, so they
+    are kept without being read again; a chart file the user replaced (another file, the
+    same length) is compared by its bytes and written anew."""
+    from generator.site import output
+
+    src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
+    build(src, out, cache, capsys)
+    replaced = sorted((out / "charts").glob("*.svg"))[0]
+    data = replaced.read_bytes()
+    replaced.unlink()
+    replaced.write_bytes(data[:-2] + b"x\n")  # a new inode, the same length
+    compared: list[str] = []
+    real = output._same_bytes
+    monkeypatch.setattr(output, "_same_bytes",
+                        lambda path, d, size: compared.append(path) or real(path, d, size))
+    path = src / "species" / "water-liquid.yaml"
+    path.write_text(path.read_text(encoding="utf-8").replace("-285.83", "-285.50"),
+                    encoding="utf-8")
+    build(src, out, cache, capsys)
+    compared_charts = [p for p in compared if f"{os.sep}charts{os.sep}" in p]
+    assert compared_charts == [str(replaced)]
+    assert replaced.read_bytes() == data  # put back from its cache entry
+
+
 def _spec(**kw) -> LineChartSpec:
     base = dict(title="H2O(g): Cp°(T)", description="Cp of water vapour rises with T.",
                 x_label="T / K", y_label="Cp° / (J mol⁻¹ K⁻¹)",

@@ -6,6 +6,8 @@ import importlib
 import json
 import math
 
+import pytest
+
 from generator.compute import compute_handbook
 from generator.exports import json_text
 from generator.load import load_handbook
@@ -64,3 +66,17 @@ def test_handbook_json_is_the_item_documents_byte_for_byte(mini):
                                                                .index(sid)]
         rows = json.loads(item)["rows"]
         assert sum(line.startswith('  {"Cp"') for line in item.splitlines()) == len(rows)
+
+
+def test_inline_scalars_are_written_as_the_json_encoder_writes_them():
+    """The direct path for strings, None, bools, ints and finite floats gives the encoder's
+    own text; non-finite floats are still refused."""
+    from generator.exports import _INLINE, _inline
+
+    values = ["a\"b\\c\n\u2212é\x00\x1f", "", None, True, False, 0, -5, 10**30, 1.5, -0.0,
+              1e300, 5e-324, 0.1, 298.15, [1, {"b": 2}], {"x": [1.0, None]}]
+    for v in values:
+        assert _inline(v) == _INLINE.encode(v), v
+    for bad in (float("nan"), float("inf"), -float("inf")):
+        with pytest.raises(ValueError):
+            _inline(bad)

@@ -17,8 +17,10 @@ import generator
 ASSET_NAMES: tuple[str, ...] = ("print.css", "site.css", "site.js")
 
 
+@functools.lru_cache(maxsize=1)
 def templates_dir() -> Path:
-    """The first of ``generator/site_templates`` and ``<repo>/site_templates`` that exists."""
+    """The first of ``generator/site_templates`` and ``<repo>/site_templates`` that exists
+    (looked up once per process: every sheet asks)."""
     package = Path(generator.__file__).resolve().parent
     for candidate in (package / "site_templates", package.parent / "site_templates"):
         if (candidate / "base.html").is_file():

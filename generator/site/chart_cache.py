@@ -49,6 +49,8 @@ class ChartCache:
 
     def __init__(self, folder: Path) -> None:
         self.folder = Path(folder)
+        self._prefix = os.path.join(os.fspath(self.folder), "")
+        self._names: dict[str, str] = {}
         self.hits = 0
         self.misses = 0
         self.rejected = 0
@@ -57,10 +59,14 @@ class ChartCache:
         return Path(self.entry_name(key))
 
     def entry_name(self, key: str) -> str:
-        """The entry's file name as a string (no Path objects: a build looks up thousands)."""
-        if not _KEY.fullmatch(key):
-            raise ValueError(f"not a chart cache key: {key!r}")
-        return os.path.join(self.folder, key[:2], f"{key}.svg")
+        """The entry's file name as a string (no Path objects, each key checked and joined
+        once: a build asks for thousands, each three times)."""
+        name = self._names.get(key)
+        if name is None:
+            if not _KEY.fullmatch(key):
+                raise ValueError(f"not a chart cache key: {key!r}")
+            name = self._names[key] = f"{self._prefix}{key[:2]}{os.sep}{key}.svg"
+        return name
 
     def get(self, key: str) -> bytes | None:
         """The SVG stored under ``key``, or None if absent or failing its checks (a failing

@@ -82,8 +82,10 @@ def _reference_sources(computed: Computed, key: str) -> list[str]:
     return sorted(out)
 
 
-def page_sources(computed: Computed, page_path: str) -> list[str]:
-    """The source files (relative to the sources folder) one page was made from."""
+def page_sources(computed: Computed, page_path: str, every: list[str] | None = None
+                 ) -> list[str]:
+    """The source files (relative to the sources folder) one page was made from; ``every``:
+    all_sources(computed), when the caller has it already."""
     from generator.site import design_pages as design
 
     hb = computed.handbook
@@ -106,19 +108,20 @@ def page_sources(computed: Computed, page_path: str) -> list[str]:
     if folder == "elements":
         return sorted({_file(computed, sp.path) for sp in hb.species.values()
                        if stem in sp.element_counts})
-    return all_sources(computed)
+    return list(every) if every is not None else all_sources(computed)
 
 
 def manifest_doc(files: Mapping[str, bytes], page_paths: Sequence[str], computed: Computed,
                  meta: SiteMeta) -> dict:
     """The manifest of a build whose output is ``files`` (``manifest.json`` left out)."""
     files = {MARKER: MARKER_TEXT, **files}  # written beside them by generator.site.output
+    every = all_sources(computed)  # the sources of each whole-handbook page
     return {
         "tool": "thermofolio", "version": __version__, "source_revision": meta.revision,
         "build_date": meta.build_date,
         "files": [{"path": path, "sha256": hashlib.sha256(files[path]).hexdigest(),
                    "bytes": len(files[path])} for path in sorted(files) if path != MANIFEST],
-        "pages": {path: page_sources(computed, path) for path in sorted(page_paths)},
+        "pages": {path: page_sources(computed, path, every) for path in sorted(page_paths)},
     }
 
 

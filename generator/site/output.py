@@ -68,19 +68,28 @@ class WriteResult:
     swapped: bool
 
 
-def _old_files(out: Path) -> dict[str, int]:
-    """Regular files of a previous marked site: site path -> size."""
+def _old_files(out: Path) -> dict[str, tuple[int, int, int]]:
+    """Regular files of a previous marked site: site path -> (size, device, inode)."""
     if not (out / MARKER).is_file():
         return {}
-    found: dict[str, int] = {}
+    found: dict[str, tuple[int, int, int]] = {}
     for dirpath, _dirs, names in os.walk(out):
         rel_dir = os.path.relpath(dirpath, out)
         for name in names:
             st = os.lstat(os.path.join(dirpath, name))
             if stat.S_ISREG(st.st_mode):
                 rel = name if rel_dir == "." else f"{rel_dir}/{name}".replace(os.sep, "/")
-                found[rel] = st.st_size
+                found[rel] = (st.st_size, st.st_dev, st.st_ino)
     return found
+
+
+def _is_file(path: str, dev_ino: tuple[int, int]) -> bool:
+    """``path`` is the file (device, inode) ``dev_ino``: a hard link of it."""
+    try:
+        st = os.stat(path)
+    except OSError:
+        return False
+    return (st.st_dev, st.st_ino) == dev_ino
 
 
 def _same_bytes(path: str, data: bytes, size: int | None) -> bool:
@@ -161,8 +170,19 @@ def write_site(out: Path, files: Mapping[str, bytes],
     native = {rel: _checked(rel) for rel in everything}
     old = _old_files(out) if out.is_dir() else {}
     out_s = str(out)
-    same = {rel for rel, data in everything.items()
-            if _same_bytes(os.path.join(out_s, native[rel]), data, old.get(rel))}
+    sources = sources or {}
+
+    def unchanged(rel: str, data: bytes) -> bool:
+        """The previous site's file holds ``data``: it is a link of the cache entry that
+        holds them (checked when the entry was read), or its bytes are equal."""
+        was = old.get(rel)
+        if was is None or was[0] != len(data):
+            return False
+        if rel in sources and _is_file(sources[rel], was[1:]):
+            return True
+        return _same_bytes(os.path.join(out_s, native[rel]), data, was[0])
+
+    same = {rel for rel, data in everything.items() if unchanged(rel, data)}
     removed = len(old.keys() - everything.keys())
     if len(same) == len(everything) and not removed:
         return WriteResult(rewritten=0, kept=len(same), removed=0, swapped=False)
@@ -188,7 +208,7 @@ def write_site(out: Path, files: Mapping[str, bytes],
                 made.add(parent)
             if rel in same:
                 _keep(os.path.join(out_s, native[rel]), target)
-            elif not (sources and rel in sources and
+            elif not (rel in sources and
                       _linked(sources[rel], target, everything[rel], new_mode)):
                 Path(target).write_bytes(everything[rel])
         os.chmod(tmp, 0o755)
