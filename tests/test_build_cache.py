@@ -124,6 +124,38 @@ def test_a_rebuild_reads_no_chart_that_is_a_link_of_its_cache_entry(tmp_path, re
     assert replaced.read_bytes() == data  # put back from its cache entry
 
 
+
+def test_compiled_templates_are_kept_beside_the_results_and_not_compiled_again(
+        tmp_path, recorder, capsys, monkeypatch):
+    import jinja2
+
+    from generator.site import assets
+
+    src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
+    assets.shared_environment.cache_clear()
+    build(src, out, cache, capsys)
+    kept = sorted((cache / "templates").iterdir())
+    assert kept, "no compiled templates kept"
+    assets.shared_environment.cache_clear()  # as a new process: nothing compiled in memory
+    compiled: list[str] = []
+    real = jinja2.Environment.compile
+    monkeypatch.setattr(jinja2.Environment, "compile",
+                        lambda self, source, name=None, *a, **k:
+                        compiled.append(name) or real(self, source, name, *a, **k))
+    path = src / "species" / "water-liquid.yaml"
+    path.write_text(path.read_text(encoding="utf-8").replace("-285.83", "-285.50"),
+                    encoding="utf-8")
+    build(src, out, cache, capsys)
+    assert compiled == []
+    # --no-cache writes no compiled templates anywhere (and still renders: it compiles)
+    assets.shared_environment.cache_clear()
+    capsys.readouterr()
+    assert main(["build", str(src), "-o", str(tmp_path / "plain"), "--no-cache", "-q",
+                 "-j", "1"]) == 0
+    assert compiled and not (src / ".thermofolio-cache").exists()
+    assert sorted((cache / "templates").iterdir()) == kept
+
+
 def _spec(**kw) -> LineChartSpec:
     base = dict(title="H2O(g): Cp°(T)", description="Cp of water vapour rises with T.",
                 x_label="T / K", y_label="Cp° / (J mol⁻¹ K⁻¹)",

@@ -367,8 +367,17 @@ def export_files(computed: Computed, findings: Sequence[Finding]) -> dict[str, b
 # --- the command's last step ---------------------------------------------------------------
 
 
-def render_pages(site_pages: Sequence[pages.Page]) -> dict[str, bytes]:
-    env = assets.shared_environment(assets.templates_dir())
+def compiled_templates(results: ResultsCache | None) -> str | None:
+    """The folder keeping the compiled templates beside ``results``'s database (none
+    without a results cache: ``--no-cache`` writes nothing)."""
+    path = getattr(results, "path", None)
+    return None if path is None else os.path.join(os.path.dirname(path), "templates")
+
+
+def render_pages(site_pages: Sequence[pages.Page], compiled: str | None = None
+                 ) -> dict[str, bytes]:
+    """Each page's HTML; ``compiled``: see compiled_templates."""
+    env = assets.shared_environment(assets.templates_dir(), compiled)
     return {p.path: env.get_template(p.template).render(**p.context).encode("utf-8")
             for p in site_pages}
 
@@ -400,14 +409,15 @@ class ItemBatch:
 
 
 def render_items(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
-                 keys: Sequence[str]) -> ItemBatch:
-    """Chart specs, sheets and exports of the items ``keys`` (pure: no file is touched)."""
+                 keys: Sequence[str], compiled: str | None = None) -> ItemBatch:
+    """Chart specs, sheets and exports of the items ``keys`` (no file is touched but the
+    compiled templates in ``compiled``, see compiled_templates)."""
     views, specs, digests = _plan(chart_entries(computed, keys))
     notes = notes_html(computed, keys)
     by_item = _by_item(findings)
     sheets = [pages.item_page(computed, key, by_item.get(key.partition(":")[2], []), meta,
                               views.get(key, ()), notes.get(key, "")) for key in keys]
-    files = render_pages(sheets)
+    files = render_pages(sheets, compiled)
     exported, texts = item_exports(computed, findings, keys)
     files.update(exported)
     return ItemBatch(files, [p.path for p in sheets], specs, digests, texts)
@@ -444,7 +454,7 @@ def render_sheet(computed: Computed, key: str, findings: Sequence[Finding],
         hit = results.get("sheet", key, digest)
         if isinstance(hit, ItemBatch):
             return hit, False
-    batch = render_items(view, findings, own_meta, [key])
+    batch = render_items(view, findings, own_meta, [key], compiled_templates(results))
     if results is not None and digest is not None:
         results.put("sheet", key, digest, replace(batch, specs={
             path: pickle.dumps(spec, protocol=5) for path, spec in batch.specs.items()}))
@@ -452,21 +462,22 @@ def render_sheet(computed: Computed, key: str, findings: Sequence[Finding],
 
 
 def handbook_batch(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
-                   part: str | None = None) -> ItemBatch:
+                   part: str | None = None, compiled: str | None = None) -> ItemBatch:
     """The indexes, audit, reference, family and element pages and their charts (only the
-    share ``part`` of pages.HANDBOOK_PARTS, if given)."""
+    share ``part`` of pages.HANDBOOK_PARTS, if given; ``compiled``: see
+    compiled_templates)."""
     views, specs, digests = ({}, {}, {}) if part not in (None, "other") else \
         _plan(handbook_chart_entries(computed))
     site_pages = pages.handbook_pages(computed, findings, meta, views, part)
-    return ItemBatch(render_pages(site_pages), [p.path for p in site_pages], specs, digests,
-                     {})
+    return ItemBatch(render_pages(site_pages, compiled), [p.path for p in site_pages], specs,
+                     digests, {})
 
 
 def _render_task(shared: tuple, task: str | Sequence[str] | None) -> tuple[ItemBatch, int]:
     """One task of render_site: a share of the handbook pages, or some items' sheets."""
     computed, findings, meta, results = shared
     if task is None or isinstance(task, str):  # None: every handbook page
-        return handbook_batch(computed, findings, meta, task), 0
+        return handbook_batch(computed, findings, meta, task, compiled_templates(results)), 0
     by_item = _by_item(findings)
     digester = digester_for(computed.handbook)
     merged = ItemBatch({}, [], {}, {}, {})
