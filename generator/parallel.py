@@ -37,6 +37,18 @@ def can_fork() -> bool:
     return "fork" in multiprocessing.get_all_start_methods() and threading.active_count() == 1
 
 
+def split(items: Sequence, jobs: int) -> list[list]:
+    """``items`` in the chunks fork_map would make of them, interleaved for even loads: one
+    chunk (all of them) when they would be worked on in this process, none for none."""
+    items = list(items)
+    if not items:
+        return []
+    if jobs < 2 or len(items) < MIN_ITEMS or not can_fork():
+        return [items]
+    n = min(len(items), CHUNKS_PER_JOB * jobs)
+    return [items[i::n] for i in range(n)]
+
+
 def _run_chunk(items: Sequence) -> list:
     assert _TASK is not None
     fn, shared = _TASK

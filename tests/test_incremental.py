@@ -261,6 +261,37 @@ def test_forked_workers_write_the_same_database(tmp_path, monkeypatch) -> None:
     assert cache.get("species", "parent", "d") == 0  # the parent's connection still works
 
 
+
+def _put_in_child(cache: ResultsCache) -> None:
+    cache.put("species", "child", "d", os.getpid())
+    os._exit(0)
+
+
+def test_a_batch_writes_its_puts_together_when_it_ends(tmp_path) -> None:
+    import multiprocessing
+
+    cache = ResultsCache(tmp_path, salt="s")
+    reader = ResultsCache(tmp_path, salt="s")
+    with cache.batch():
+        cache.put("reaction", "a", "da", 1)
+        with cache.batch():  # a nested block joins the outer one
+            cache.put("reaction", "b", "db", 2)
+        assert reader.get("reaction", "a", "da") is None  # not written yet
+        child = multiprocessing.get_context("fork").Process(target=_put_in_child,
+                                                            args=(cache,))
+        child.start()
+        child.join()
+        assert child.exitcode == 0
+        assert reader.get("species", "child", "d") == child.pid  # a forked child's: at once
+    assert reader.get("reaction", "a", "da") == 1 and reader.get("reaction", "b", "db") == 2
+    with pytest.raises(RuntimeError), cache.batch():
+        cache.put("reaction", "c", "dc", 3)
+        raise RuntimeError("the block fails")
+    assert reader.get("reaction", "c", "dc") is None  # a failed block writes nothing
+    cache.put("reaction", "c", "dc", 4)  # outside a block: at once
+    assert reader.get("reaction", "c", "dc") == 4
+
+
 # --- (2) rebuilds publish what a clean build publishes ---------------------------------------
 
 

@@ -34,7 +34,7 @@ from generator.exports import (
 from generator.model import Handbook
 from generator.neighbourhood import Digester, digester_for, item_view
 from generator.progress import Progress
-from generator.results_cache import ResultsCache
+from generator.results_cache import ResultsCache, batched
 from generator.site import assets, markdown_notes, output, pages
 from generator.site.chart_cache import ChartCache, cache_key, default_folder, entry_bytes
 
@@ -482,11 +482,12 @@ def _render_task(shared: tuple, task: str | Sequence[str] | None) -> tuple[ItemB
     digester = digester_for(computed.handbook)
     merged = ItemBatch({}, [], {}, {}, {})
     rendered = 0
-    for key in task:
-        batch, fresh = render_sheet(computed, key, by_item.get(key.partition(":")[2], []),
-                                    meta, results, digester)
-        rendered += fresh
-        _merge(merged, batch)
+    with batched(results):  # the task's sheet entries in one transaction
+        for key in task:
+            batch, fresh = render_sheet(computed, key, by_item.get(key.partition(":")[2], []),
+                                        meta, results, digester)
+            rendered += fresh
+            _merge(merged, batch)
     return merged, rendered
 
 
