@@ -155,12 +155,12 @@ class ResultsCache:
             except OSError:
                 pass
 
-    def _run(self, sql: str, args: tuple) -> list:
-        """``sql`` on this process's connection; a damaged database is set aside once and
-        the statement tried on a fresh one; other failures raise sqlite3.Error."""
+    def _on_database(self, work: Callable[[sqlite3.Connection], Any]) -> Any:
+        """``work(connection)`` on this process's connection; a damaged database is set
+        aside once and the work tried on a fresh one; other failures raise sqlite3.Error."""
         for attempt in (0, 1):
             try:
-                return self._connection().execute(sql, args).fetchall()
+                return work(self._connection())
             except sqlite3.OperationalError:
                 raise  # busy past the timeout, read-only folder, ...: not damage
             except sqlite3.DatabaseError:
@@ -168,6 +168,10 @@ class ResultsCache:
                     raise
                 self._set_aside()
         raise AssertionError("unreachable")
+
+    def _run(self, sql: str, args: tuple) -> list:
+        """The rows of ``sql`` (see _on_database)."""
+        return self._on_database(lambda db: db.execute(sql, args).fetchall())
 
     def get(self, kind: str, item: str, digest: str):
         """The result stored for ``item`` under ``digest``, or None."""
@@ -251,32 +255,30 @@ class ResultsCache:
                "values (?, ?, ?, ?, ?, ?)")
 
     def _write(self, rows: list[tuple]) -> None:
-        """Store ``rows`` in one transaction; a damaged database is set aside once and the
-        rows written to a fresh one; a cache that cannot be written is skipped."""
+        """Store ``rows`` in one transaction (see _on_database); a cache that cannot be
+        written is skipped."""
         if not rows:
             return
-        for attempt in (0, 1):
+
+        def insert(db: sqlite3.Connection) -> None:
+            if len(rows) == 1:
+                db.execute(self._INSERT, rows[0])
+                return
+            db.execute("begin immediate")
             try:
-                db = self._connection()
-                if len(rows) == 1:
-                    db.execute(self._INSERT, rows[0])
-                    return
-                db.execute("begin immediate")
+                db.executemany(self._INSERT, rows)
+                db.execute("commit")
+            except BaseException:
                 try:
-                    db.executemany(self._INSERT, rows)
-                    db.execute("commit")
-                except BaseException:
                     db.execute("rollback")
-                    raise
-                return
-            except sqlite3.OperationalError:
-                return  # busy past the timeout, read-only folder, ...: not damage
-            except sqlite3.DatabaseError:
-                if attempt:
-                    return
-                self._set_aside()
-            except OSError:
-                return
+                except sqlite3.Error:
+                    pass  # no transaction left to roll back
+                raise
+
+        try:
+            self._on_database(insert)
+        except (sqlite3.Error, OSError):
+            return
 
 
 DATABASE = "results.sqlite"

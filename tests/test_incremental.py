@@ -240,6 +240,18 @@ def test_a_damaged_results_database_is_set_aside(tmp_path) -> None:
     assert cache.get("reaction", "r1", "d") == 2.5
 
 
+
+def test_a_batch_written_to_a_damaged_database_lands_in_a_fresh_one(tmp_path) -> None:
+    (tmp_path / DATABASE).write_bytes(b"not a database at all " * 200)
+    cache = ResultsCache(tmp_path, salt="s")
+    with cache.batch():
+        cache.put("reaction", "r1", "d1", 1.5)
+        cache.put("reaction", "r2", "d2", 2.5)
+    assert (tmp_path / f"{DATABASE}.damaged").exists()
+    fresh = ResultsCache(tmp_path, salt="s")
+    assert (fresh.get("reaction", "r1", "d1"), fresh.get("reaction", "r2", "d2")) == (1.5, 2.5)
+
+
 def _value_and_pid(shared: int, item: str) -> tuple[int, int]:
     return shared + int(item[1:]), os.getpid()
 
