@@ -45,6 +45,11 @@ def split(items: Sequence, jobs: int) -> list[list]:
         return []
     if jobs < 2 or len(items) < MIN_ITEMS or not can_fork():
         return [items]
+    return _interleaved(items, jobs)
+
+
+def _interleaved(items: list, jobs: int) -> list[list]:
+    """CHUNKS_PER_JOB chunks per job (fewer for fewer items), item i in chunk i mod n."""
     n = min(len(items), CHUNKS_PER_JOB * jobs)
     return [items[i::n] for i in range(n)]
 
@@ -65,8 +70,8 @@ def fork_map(fn: Callable[[Any, Any], Any], items: Sequence, jobs: int, shared: 
         min_items = MIN_ITEMS
     if jobs < 2 or len(items) < min_items or not can_fork():
         return [fn(shared, x) for x in items]
-    n_chunks = min(len(items), CHUNKS_PER_JOB * jobs)
-    chunks = [items[i::n_chunks] for i in range(n_chunks)]  # interleaved: even loads
+    chunks = _interleaved(items, jobs)  # interleaved: even loads
+    n_chunks = len(chunks)
     _TASK = (fn, shared)
     # Everything alive now is moved out of the collector's sight while the workers run
     # (gc.freeze, as the gc module's documentation advises before a fork): their full

@@ -506,13 +506,13 @@ def render_site(computed: Computed, findings: Sequence[Finding], meta: pages.Sit
     than taken from ``results``).  With at least parallel.MIN_ITEMS items the work is split
     over ``jobs`` forked workers (generator.parallel): the handbook pages as four tasks
     (pages.HANDBOOK_PARTS), the sheets as parallel.CHUNKS_PER_JOB × ``jobs`` more."""
-    keys = pages.item_keys(computed)
     # many small chunks, so no worker idles long at the end while another finishes
-    n = parallel.CHUNKS_PER_JOB * jobs if jobs > 1 and len(keys) >= parallel.MIN_ITEMS else 1
+    chunks = parallel.split(pages.item_keys(computed), jobs)
+    n = len(chunks)
     whole: list = list(pages.HANDBOOK_PARTS) if n > 1 else [None]
-    tasks: list = whole + [tuple(keys[i::n]) for i in range(n)]
+    tasks: list = whole + [tuple(chunk) for chunk in chunks]
     parts = parallel.fork_map(_render_task, tasks, jobs if n > 1 else 1,
-                                 (computed, findings, meta, results), 2)
+                              (computed, findings, meta, results), 2)
     handbook, sheets = ItemBatch({}, [], {}, {}, {}), ItemBatch({}, [], {}, {}, {})
     for i, (batch, _n) in enumerate(parts):
         _merge(handbook if i < len(whole) else sheets, batch)
