@@ -146,3 +146,18 @@ def test_relative_and_absolute_sources_do_not_share_a_stamp(env, monkeypatch):
     monkeypatch.chdir(src.parent)
     assert build_cmd.build_stamp(Path(src.name), ok) != build_cmd.build_stamp(src, ok)
     assert os.path.isabs(src)
+
+
+def test_the_working_folder_is_part_of_the_stamp(env, capsys, monkeypatch):
+    """The pages show a source path relative to the working folder when it lies inside it,
+    even when the sources were named by an absolute path: a build from another folder
+    that shows other paths is not up to date."""
+    src, out, cache = env
+    monkeypatch.chdir(src.parent)
+    build(src, out, cache, capsys)
+    sheet = next((out / "species").glob("*.html"))
+    assert f"<code>{src.name}/species/" in sheet.read_text(encoding="utf-8")
+    assert "up to date" in build(src, out, cache, capsys)
+    monkeypatch.chdir(REPO)
+    assert "up to date" not in build(src, out, cache, capsys)
+    assert f"<code>{src}/species/" in sheet.read_text(encoding="utf-8")

@@ -154,8 +154,9 @@ def build_stamp(sources: Path, args: argparse.Namespace) -> str | None:
     h = hashlib.sha256(b"thermofolio build stamp 2\0")
     h.update(f"{code_identity()}\0{renderer}\0".encode())
     root = Path(os.path.abspath(sources))
-    given = str(sources) if os.path.isabs(sources) else f"{sources}\0{os.getcwd()}"
-    h.update(f"\0sources\0{root}\0{given}\0".encode())  # pages show the path as given
+    # Pages show source paths relative to the working folder when inside it
+    # (generator.load.display_path), however the sources were named.
+    h.update(f"\0sources\0{root}\0{sources}\0{os.getcwd()}\0".encode())
     newest = tree_digest(h, root, skip_hidden=True)
     epoch = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
     h.update(f"\0date\0{epoch}\0{'' if epoch.isdigit() else repr(newest)}\0".encode())
