@@ -267,3 +267,63 @@ def test_charts_are_linked_from_the_cache_and_the_site_is_the_same_without_it(
     build(src, third, cache, capsys)
     assert _tree(third) == _tree(plain)
     assert all(p.stat().st_nlink == 1 for p in (third / "charts").glob("*.svg"))
+
+
+class Drawing:
+    """Stands in for generator.charts.start_many: notes what the output's parent holds when
+    the build first waits for the charts (the new tree, staged meanwhile), then gives one
+    small SVG per spec, or raises."""
+
+    def __init__(self, parent: Path, fail: bool = False) -> None:
+        self.parent, self.fail = parent, fail
+        self.started: list[int] = []
+        self.staged_when_waited: list[set[str]] = []
+
+    def __call__(self, specs, jobs=1):
+        specs = list(specs)
+        self.started.append(len(specs))
+        drawing = self
+
+        class Pending:
+            def result(self, progress=None):
+                staged = [p for p in drawing.parent.iterdir() if p.name.startswith(".out.new-")]
+                drawing.staged_when_waited.append(
+                    {str(f.relative_to(staged[0])) for f in staged[0].rglob("*.html")}
+                    if staged else set())
+                if drawing.fail:
+                    raise RuntimeError("the drawing pool broke")
+                return Recorder()(specs)
+
+            def cancel(self):
+                pass
+
+        return Pending()
+
+
+def test_pages_are_written_while_the_missing_charts_are_drawn(tmp_path, capsys,
+                                                              monkeypatch):
+    """The real drawer's charts are started before anything is written and waited for
+    only once every page is in the new tree; a drawing that fails then leaves the previous
+    site as it was and no temporary folder."""
+    import generator.charts
+
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
+    src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
+    drawing = Drawing(tmp_path)
+    monkeypatch.setattr(generator.charts, "start_many", drawing)
+    charts, drawn, _cached, _rewritten = build(src, out, cache, capsys)
+    assert drawing.started == [charts] and drawn == charts  # one pool, every chart
+    pages = {str(p.relative_to(out)) for p in out.rglob("*.html")}
+    assert drawing.staged_when_waited == [pages]
+    before = {str(p.relative_to(out)): p.read_bytes() for p in out.rglob("*") if p.is_file()}
+    path = src / "species" / "water-liquid.yaml"
+    path.write_text(path.read_text(encoding="utf-8").replace("-285.83", "-285.50"),
+                    encoding="utf-8")
+    monkeypatch.setattr(generator.charts, "start_many", Drawing(tmp_path, fail=True))
+    capsys.readouterr()
+    assert main(["build", str(src), "-o", str(out), "--cache", str(cache), "-j", "1",
+                 "-q"]) == 3  # an internal error, reported by the CLI
+    assert "the drawing pool broke" in capsys.readouterr().err
+    assert {str(p.relative_to(out)): p.read_bytes() for p in out.rglob("*")
+            if p.is_file()} == before
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["cache", "hb", "out"]

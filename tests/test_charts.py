@@ -30,6 +30,7 @@ from generator.charts import (
     render_many,
     render_svg,
     spec_digest,
+    start_many,
 )
 from generator.charts import style as house
 
@@ -349,3 +350,19 @@ def test_render_many_keeps_order_and_bytes() -> None:
     specs = [level_spec(), gibbs_spec()]
     assert render_many(specs, jobs=2) == [drawn("levels"), drawn("gibbs")]
     assert render_many(specs[:1], jobs=1) == [drawn("levels")]
+
+
+def test_charts_started_in_a_pool_are_waited_for_in_order_or_cancelled() -> None:
+    """start_many returns at once (the pool is started by a thread of its own) and its
+    result is render_svg's bytes in order; a cancelled drawing has no result."""
+    specs = [gibbs_spec(), level_spec(), gibbs_spec(0.5)]
+    pending = start_many(specs, 2)
+    seen: list[int] = []
+    assert pending.result(seen.append) == [drawn("gibbs"), drawn("levels"),
+                                           render_svg(gibbs_spec(0.5))]
+    assert seen[-1] == 3 and seen == sorted(seen)
+    pending = start_many(specs, 2)
+    pending.cancel()
+    with pytest.raises(RuntimeError, match="cancelled"):
+        pending.result()
+    assert start_many(specs[:1], 1).result() == [drawn("gibbs")]  # one job: drawn here

@@ -332,6 +332,53 @@ def test_failed_build_leaves_previous_site_intact(tmp_path: Path, monkeypatch) -
     assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]
 
 
+def test_a_site_staged_in_parts_is_the_site_written_at_once(tmp_path: Path) -> None:
+    """output.Staging: files added in several parts (a chart linked from a file holding its
+    bytes) give the folder write_site gives; a path added twice is refused."""
+    first = {"index.html": b"<p>1</p>", "species/a.html": b"a", "charts/c.svg": b"<svg/>"}
+    output.write_site(tmp_path / "once", first)
+    held = tmp_path / "entry.svg"
+    held.write_bytes(b"<svg/>")
+    staging = output.Staging(tmp_path / "parts")
+    staging.add({"species/a.html": b"a"})
+    staging.add({"index.html": b"<p>1</p>", "charts/c.svg": b"<svg/>"},
+                {"charts/c.svg": str(held)})
+    with pytest.raises(ValueError, match="already part"):
+        staging.add({"index.html": b"again"})
+    result = staging.commit()
+    assert result.swapped and result.rewritten == 4 and result.kept == 0  # with the marker
+    assert tree(tmp_path / "parts") == tree(tmp_path / "once")
+    assert (tmp_path / "parts" / "charts" / "c.svg").stat().st_ino == held.stat().st_ino
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["entry.svg", "once", "parts"]
+
+
+def test_staging_touches_nothing_until_a_file_differs(tmp_path: Path) -> None:
+    """No temporary folder while every file equals the previous site's; an abort leaves the
+    previous site as it was and no folder behind; a file gone from the site is a change."""
+    out = tmp_path / "out"
+    files = {"index.html": b"<p>1</p>", "species/a.html": b"a"}
+    output.write_site(out, files)
+    before = tree(out)
+    mtimes = {p: (out / p).stat().st_mtime_ns for p in before}
+    staging = output.Staging(out)
+    staging.add(files)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]  # nothing made yet
+    assert staging.commit() == output.WriteResult(rewritten=0, kept=3, removed=0,
+                                                  swapped=False)
+    staging = output.Staging(out)
+    staging.add({"index.html": b"<p>2</p>"})
+    assert len(list(tmp_path.iterdir())) == 2  # the new tree, beside the output
+    staging.abort()
+    assert tree(out) == before and sorted(p.name for p in tmp_path.iterdir()) == ["out"]
+    assert {p: (out / p).stat().st_mtime_ns for p in before} == mtimes
+    staging = output.Staging(out)
+    staging.add({"index.html": b"<p>1</p>"})  # species/a.html is no longer part of it
+    result = staging.commit()
+    assert result.swapped and result.removed == 1 and result.rewritten == 0
+    assert tree(out) == {"index.html": b"<p>1</p>", output.MARKER: output.MARKER_TEXT}
+    assert (out / "index.html").stat().st_mtime_ns == mtimes["index.html"]  # kept, linked
+
+
 def test_rebuild_replaces_marked_site(tmp_path: Path, monkeypatch) -> None:
     monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
     out = tmp_path / "out"

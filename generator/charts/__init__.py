@@ -1,9 +1,10 @@
 """Chart drawing: frozen chart specs in, deterministic accessible SVG bytes out.
 
-Importing this package does not import matplotlib; only ``render_svg``/``render_many`` do.
+Importing this package does not import matplotlib; only ``render_svg``, ``render_many`` and
+``start_many`` do.
 """
 
-from generator.charts.draw import chart_id, render_many, render_svg
+from generator.charts.draw import PendingCharts, chart_id, render_many, render_svg, start_many
 from generator.charts.specs import (
     ARROW_KINDS,
     ZERO_LEVEL,
@@ -24,6 +25,7 @@ from generator.charts.style import STYLE_VERSION
 
 __all__ = [
     "ARROW_KINDS",
+    "PendingCharts",
     "STYLE_VERSION",
     "ZERO_LEVEL",
     "Arrow",
@@ -41,4 +43,5 @@ __all__ = [
     "render_many",
     "render_svg",
     "spec_digest",
+    "start_many",
 ]

@@ -11,6 +11,7 @@ import hashlib
 import io
 import multiprocessing
 import re
+import threading
 from collections.abc import Callable, Sequence
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from typing import TYPE_CHECKING, Any
@@ -85,37 +86,96 @@ def render_many(
     progress: Callable[[int], None] | None = None,
 ) -> list[bytes]:
     """``render_svg`` over ``specs`` in order.  jobs > 1 draws in one pool of worker processes
-    started for this call (forkserver with matplotlib preloaded, so each worker pays the
-    import once); ``progress`` is called with the number of charts finished so far."""
-    specs = list(specs)
-    jobs = max(1, min(int(jobs), len(specs)))
-    if jobs == 1:
-        out = []
-        for spec in specs:
-            out.append(render_svg(spec))
-            if progress is not None:
-                progress(len(out))
-        return out
-    methods = multiprocessing.get_all_start_methods()
-    if "forkserver" in methods:
-        ctx = multiprocessing.get_context("forkserver")
-        ctx.set_forkserver_preload(list(_PRELOAD))
-    else:
-        ctx = multiprocessing.get_context("spawn")
-    size = max(1, min(16, len(specs) // (6 * jobs)))  # small batches keep the cores busy
-    batches = [specs[i : i + size] for i in range(0, len(specs), size)]
-    results: list[list[bytes] | None] = [None] * len(batches)
-    done = 0
-    with ProcessPoolExecutor(
-        max_workers=jobs, mp_context=ctx, initializer=_warm_worker
-    ) as pool:
-        futures = {pool.submit(_render_batch, batch): i for i, batch in enumerate(batches)}
-        for future in as_completed(futures):
-            results[futures[future]] = future.result()
-            done += len(batches[futures[future]])
-            if progress is not None:
-                progress(done)
-    return [svg for batch in results if batch is not None for svg in batch]
+    started for this call (see ``start_many``); ``progress`` is called with the number of
+    charts finished so far."""
+    return start_many(specs, jobs).result(progress)
+
+
+def start_many(specs: Sequence[ChartSpec], jobs: int = 1) -> PendingCharts:
+    """Start drawing ``specs``; ``result()`` on the returned handle waits for the SVGs, in
+    order.  With jobs > 1 the charts are drawn by a pool of worker processes started now
+    (forkserver with matplotlib preloaded, so each worker pays the import once), and the
+    caller goes on meanwhile; with one job they are drawn in this process when the result
+    is asked for."""
+    return PendingCharts(list(specs), jobs)
+
+
+class PendingCharts:
+    """Charts being drawn while the caller goes on: ``result`` waits for them (and shuts the
+    pool down), ``cancel`` drops what has not started and waits for what has.  The pool is
+    started by a thread of its own: starting a forkserver worker waits until the server has
+    imported matplotlib, which the caller need not wait for."""
+
+    def __init__(self, specs: list[ChartSpec], jobs: int) -> None:
+        self._specs = specs
+        self._pool: ProcessPoolExecutor | None = None
+        self._futures: dict[Any, int] = {}
+        self._batches: list[list[ChartSpec]] = []
+        self._error: BaseException | None = None
+        jobs = max(1, min(int(jobs), len(specs)))
+        self._in_process = jobs == 1
+        self._starter: threading.Thread | None = None
+        if self._in_process:
+            return
+        size = max(1, min(16, len(specs) // (6 * jobs)))  # small batches keep the cores busy
+        self._batches = [specs[i : i + size] for i in range(0, len(specs), size)]
+        self._starter = threading.Thread(target=self._start, args=(jobs,), daemon=True,
+                                         name="thermofolio-chart-pool")
+        self._starter.start()
+
+    def _start(self, jobs: int) -> None:
+        try:
+            methods = multiprocessing.get_all_start_methods()
+            if "forkserver" in methods:
+                ctx = multiprocessing.get_context("forkserver")
+                ctx.set_forkserver_preload(list(_PRELOAD))
+            else:
+                ctx = multiprocessing.get_context("spawn")
+            self._pool = ProcessPoolExecutor(max_workers=jobs, mp_context=ctx,
+                                             initializer=_warm_worker)
+            self._futures = {self._pool.submit(_render_batch, batch): i
+                             for i, batch in enumerate(self._batches)}
+        except BaseException as exc:  # raised again by result()
+            self._error = exc
+
+    def _started(self) -> None:
+        if self._starter is not None:
+            self._starter.join()
+            self._starter = None
+
+    def result(self, progress: Callable[[int], None] | None = None) -> list[bytes]:
+        """The SVG of each spec, in order; ``progress`` gets the number finished so far."""
+        if self._in_process:
+            out = []
+            for spec in self._specs:
+                out.append(render_svg(spec))
+                if progress is not None:
+                    progress(len(out))
+            return out
+        self._started()
+        if self._error is not None:
+            self.cancel()
+            raise self._error
+        if self._pool is None:
+            raise RuntimeError("the drawing was cancelled")
+        results: list[list[bytes] | None] = [None] * len(self._batches)
+        done = 0
+        try:
+            for future in as_completed(self._futures):
+                i = self._futures[future]
+                results[i] = future.result()
+                done += len(self._batches[i])
+                if progress is not None:
+                    progress(done)
+        finally:
+            self.cancel()
+        return [svg for batch in results if batch is not None for svg in batch]
+
+    def cancel(self) -> None:
+        self._started()
+        if self._pool is not None:
+            self._pool.shutdown(wait=True, cancel_futures=True)
+            self._pool = None
 
 
 _PRELOAD = ("generator.charts.draw", "matplotlib.figure", "matplotlib.backends.backend_svg")

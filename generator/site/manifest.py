@@ -111,21 +111,30 @@ def page_sources(computed: Computed, page_path: str, every: list[str] | None = N
     return list(every) if every is not None else all_sources(computed)
 
 
+def file_digests(files: Mapping[str, bytes]) -> dict[str, str]:
+    """The sha256 (hex) of each file, as the manifest lists it."""
+    return {path: hashlib.sha256(data).hexdigest() for path, data in files.items()}
+
+
 def manifest_doc(files: Mapping[str, bytes], page_paths: Sequence[str], computed: Computed,
-                 meta: SiteMeta) -> dict:
-    """The manifest of a build whose output is ``files`` (``manifest.json`` left out)."""
+                 meta: SiteMeta, digests: Mapping[str, str] | None = None) -> dict:
+    """The manifest of a build whose output is ``files`` (``manifest.json`` left out);
+    ``digests``: file_digests of some of them, already made."""
     files = {MARKER: MARKER_TEXT, **files}  # written beside them by generator.site.output
+    known = digests or {}
     every = all_sources(computed)  # the sources of each whole-handbook page
     return {
         "tool": "thermofolio", "version": __version__, "source_revision": meta.revision,
         "build_date": meta.build_date,
-        "files": [{"path": path, "sha256": hashlib.sha256(files[path]).hexdigest(),
+        "files": [{"path": path,
+                   "sha256": known.get(path) or hashlib.sha256(files[path]).hexdigest(),
                    "bytes": len(files[path])} for path in sorted(files) if path != MANIFEST],
         "pages": {path: page_sources(computed, path, every) for path in sorted(page_paths)},
     }
 
 
 def manifest_bytes(files: Mapping[str, bytes], page_paths: Sequence[str],
-                   computed: Computed, meta: SiteMeta) -> bytes:
-    doc = manifest_doc(files, page_paths, computed, meta)
+                   computed: Computed, meta: SiteMeta,
+                   digests: Mapping[str, str] | None = None) -> bytes:
+    doc = manifest_doc(files, page_paths, computed, meta, digests)
     return (json_text(doc, 2) + "\n").encode()  # one file entry per line

@@ -164,76 +164,138 @@ def write_site(out: Path, files: Mapping[str, bytes],
     as far as the file system allows; on any failure the previous site stays as it was.
     ``sources``: for some paths, a file already holding exactly their bytes (a chart cache
     entry), hard-linked into the new tree instead of written again."""
-    out = Path(os.path.abspath(out))
-    clean_leftovers(out)
-    everything = {**files, MARKER: MARKER_TEXT}
-    native = {rel: _checked(rel) for rel in everything}
-    old = _old_files(out) if out.is_dir() else {}
-    out_s = str(out)
-    sources = sources or {}
+    staging = Staging(out)
+    try:
+        staging.add(files, sources)
+        return staging.commit()
+    finally:
+        staging.abort()  # after a commit: nothing left to remove
 
-    def unchanged(rel: str, data: bytes) -> bool:
+
+class Staging:
+    """A site written in parts: ``add`` files (as often as needed, each path once), then
+    ``commit`` swaps the complete new tree in (write_site's rules), or ``abort`` drops it.
+    The temporary folder is made only once a file differs from the previous site's, so a
+    build that changes nothing touches nothing.  The marker is always part of the site."""
+
+    def __init__(self, out: Path) -> None:
+        self.out = Path(os.path.abspath(out))
+        clean_leftovers(self.out)
+        self._old = _old_files(self.out) if self.out.is_dir() else {}
+        self._out_s = str(self.out)
+        self._tmp: Path | None = None
+        self._made: set[str] = set()
+        self._kept_later: list[tuple[str, str]] = []  # unchanged files, before the folder
+        self._paths: set[str] = set()
+        self._same = 0
+        self._mode = _new_file_mode()
+        self._done = False
+        self.add({MARKER: MARKER_TEXT})
+
+    def add(self, files: Mapping[str, bytes], sources: Mapping[str, str] | None = None
+            ) -> None:
+        """Put ``files`` (site path -> bytes) into the new tree; ``sources`` as write_site's."""
+        if self._done:
+            raise RuntimeError("this site has been committed or aborted")
+        sources = sources or {}
+        for rel in sorted(files):
+            if rel in self._paths:
+                raise ValueError(f"{rel!r} is already part of this site")
+            data = files[rel]
+            native = _checked(rel)
+            self._paths.add(rel)
+            if self._unchanged(rel, native, data, sources.get(rel)):
+                self._same += 1
+                if self._tmp is None:
+                    self._kept_later.append((rel, native))
+                else:
+                    _keep(os.path.join(self._out_s, native), self._target(native))
+                continue
+            self._folder()
+            if rel == MARKER:
+                continue  # the folder's first file, written by _folder
+            target = self._target(native)
+            if not (rel in sources and _linked(sources[rel], target, data, self._mode)):
+                Path(target).write_bytes(data)
+
+    def _unchanged(self, rel: str, native: str, data: bytes, source: str | None) -> bool:
         """The previous site's file holds ``data``: it is a link of the cache entry that
         holds them (checked when the entry was read), or its bytes are equal."""
-        was = old.get(rel)
+        was = self._old.get(rel)
         if was is None or was[0] != len(data):
             return False
-        if rel in sources and _is_file(sources[rel], was[1:]):
+        if source is not None and _is_file(source, was[1:]):
             return True
-        return _same_bytes(os.path.join(out_s, native[rel]), data, was[0])
+        return _same_bytes(os.path.join(self._out_s, native), data, was[0])
 
-    same = {rel for rel, data in everything.items() if unchanged(rel, data)}
-    removed = len(old.keys() - everything.keys())
-    if len(same) == len(everything) and not removed:
-        return WriteResult(rewritten=0, kept=len(same), removed=0, swapped=False)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.new-", dir=out.parent))
-    # The marker goes first, so a killed build's folder is known to be ours.
-    if MARKER in same:
-        _keep(out / MARKER, tmp / MARKER)
-    else:
-        (tmp / MARKER).write_bytes(MARKER_TEXT)
-    aside: Path | None = None
-    new_mode = _new_file_mode()
-    try:
-        tmp_s = str(tmp)
-        made: set[str] = {tmp_s}
-        for rel in sorted(everything):
-            if rel == MARKER:
-                continue
-            target = os.path.join(tmp_s, native[rel])
-            parent = os.path.dirname(target)
-            if parent not in made:
-                os.makedirs(parent, exist_ok=True)
-                made.add(parent)
-            if rel in same:
-                _keep(os.path.join(out_s, native[rel]), target)
-            elif not (rel in sources and
-                      _linked(sources[rel], target, everything[rel], new_mode)):
-                Path(target).write_bytes(everything[rel])
-        os.chmod(tmp, 0o755)
-        if out.exists() and _exchange(tmp, out):
-            shutil.rmtree(tmp, ignore_errors=True)  # tmp now holds the previous site
-            return WriteResult(rewritten=len(everything) - len(same), kept=len(same),
-                               removed=removed, swapped=True)
-        if out.exists():
-            aside = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
-            os.rename(out, aside / out.name)
+    def _folder(self) -> None:
+        """Make the temporary folder (the marker first, so a killed build's folder is known
+        to be ours) and put the unchanged files met so far into it."""
+        if self._tmp is not None:
+            return
+        self.out.parent.mkdir(parents=True, exist_ok=True)
+        self._tmp = Path(tempfile.mkdtemp(prefix=f".{self.out.name}.new-", dir=self.out.parent))
+        self._made = {str(self._tmp)}
+        kept, self._kept_later = self._kept_later, []
+        if (MARKER, MARKER) not in kept:
+            (self._tmp / MARKER).write_bytes(MARKER_TEXT)  # the previous one differed
+        for _rel, native in sorted(kept, key=lambda k: k[0] != MARKER):
+            _keep(os.path.join(self._out_s, native), self._target(native))
+
+    def _target(self, native: str) -> str:
+        assert self._tmp is not None
+        target = os.path.join(str(self._tmp), native)
+        parent = os.path.dirname(target)
+        if parent not in self._made:
+            os.makedirs(parent, exist_ok=True)
+            self._made.add(parent)
+        return target
+
+    def commit(self) -> WriteResult:
+        """Swap the new tree in; nothing is touched when every file is unchanged and none
+        of the previous site's files is gone."""
+        if self._done:
+            raise RuntimeError("this site has been committed or aborted")
+        self._done = True
+        removed = len(self._old.keys() - self._paths)
+        if self._tmp is None and not removed:
+            return WriteResult(rewritten=0, kept=self._same, removed=0, swapped=False)
+        result = WriteResult(rewritten=len(self._paths) - self._same, kept=self._same,
+                             removed=removed, swapped=True)
+        self._folder()
+        tmp, out = self._tmp, self.out
+        assert tmp is not None
+        aside: Path | None = None
         try:
-            os.rename(tmp, out)
+            os.chmod(tmp, 0o755)
+            if out.exists() and _exchange(tmp, out):
+                shutil.rmtree(tmp, ignore_errors=True)  # tmp now holds the previous site
+                self._tmp = None
+                return result
+            if out.exists():
+                aside = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
+                os.rename(out, aside / out.name)
+            try:
+                os.rename(tmp, out)
+            except BaseException:
+                if aside is not None:
+                    os.rename(aside / out.name, out)
+                raise
+            self._tmp = None
         except BaseException:
-            if aside is not None:
-                os.rename(aside / out.name, out)
+            if aside is not None and not any(aside.iterdir()):
+                aside.rmdir()
             raise
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        if aside is not None and not any(aside.iterdir()):
-            aside.rmdir()
-        raise
-    if aside is not None:
-        shutil.rmtree(aside, ignore_errors=True)
-    return WriteResult(rewritten=len(everything) - len(same), kept=len(same),
-                       removed=removed, swapped=True)
+        if aside is not None:
+            shutil.rmtree(aside, ignore_errors=True)
+        return result
+
+    def abort(self) -> None:
+        """Drop the new tree (if any); the previous site stays as it was."""
+        self._done = True
+        if self._tmp is not None:
+            shutil.rmtree(self._tmp, ignore_errors=True)
+            self._tmp = None
 
 
 def _new_file_mode() -> int:

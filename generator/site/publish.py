@@ -181,44 +181,102 @@ def _renderer_name() -> str:
     return f"{getattr(fn, '__module__', type(fn).__module__)}.{name}"
 
 
-def draw_charts(specs: Mapping[str, object], digests: Mapping[str, str],
-                cache: ChartCache | None, jobs: int, quiet: bool = False,
-                start: float | None = None
-                ) -> tuple[dict[str, bytes], ChartStats, dict[str, str]]:
-    """The published bytes per chart path (chart_cache.entry_bytes: the SVG and its
-    integrity trailer): sound cache entries first, the rest drawn once in a pool of ``jobs``
-    processes and stored back; and for each chart whose bytes are a cache entry's, that
-    entry's file (the writer hard-links it into the site instead of writing the bytes
-    again).  matplotlib is imported only if something is drawn."""
-    renderer = _renderer_name()
-    out: dict[str, bytes] = {}
-    sources: dict[str, str] = {}
-    todo: list[str] = []
-    for path in sorted(digests):
-        key = cache_key(digests[path], renderer)
-        entry = cache.get_entry(key) if cache is not None else None
-        if entry is None:
-            todo.append(path)
+class ChartDrawing:
+    """The charts of one build: the charts the cache has no entry for start drawing when
+    this is made, once, in a pool of ``jobs`` processes that works while the caller goes on
+    (generator.charts.start_many); ``read_cached`` then reads and checks the cache's entries
+    (one that fails its checks is drawn as well) and ``finish`` waits for the drawn charts
+    and stores them back.  matplotlib is imported only if something is drawn, and never in
+    this process while other processes draw."""
+
+    def __init__(self, specs: Mapping[str, object], digests: Mapping[str, str],
+                 cache: ChartCache | None, jobs: int) -> None:
+        self._specs, self._cache, self._jobs = specs, cache, jobs
+        self._renderer = _renderer_name()
+        self._keys = {path: cache_key(digests[path], self._renderer) for path in sorted(digests)}
+        self.sources: dict[str, str] = {}  # chart path -> cache entry holding its bytes
+        self._parts: list[tuple[list[str], object]] = []  # (chart paths, their drawing)
+        self._cached: dict[str, bytes] = {}
+        self._drawn = 0
+        missing = [path for path, key in self._keys.items()
+                   if cache is None or not os.path.exists(cache.entry_name(key))]
+        self._draw(missing)
+        self._to_read = [path for path in self._keys if path not in set(missing)]
+
+    def _draw(self, paths: list[str]) -> None:
+        if not paths:
+            return
+        todo = [chart_spec(self._specs[p]) for p in paths]
+        if self._renderer:  # a stand-in renderer takes (specs, jobs) and draws at once
+            n_jobs = self._jobs if len(todo) > 2 * self._jobs else 1
+            self._parts.append((paths, _Drawn(render_many(todo, n_jobs))))
         else:
-            out[path] = entry
-            sources[path] = cache.entry_name(key)
-    if todo:
-        bar = Progress("drawing charts", len(todo), quiet=quiet, start=start)
-        todo_specs = [chart_spec(specs[p]) for p in todo]
-        n_jobs = jobs if len(todo) > 2 * jobs else 1
-        if renderer:  # a stand-in renderer takes (specs, jobs)
-            drawn = render_many(todo_specs, n_jobs)
-        else:
-            drawn = render_many(todo_specs, n_jobs, bar.update)
-        bar.close()
-        for path, svg in zip(todo, drawn, strict=True):
-            out[path] = entry_bytes(svg)
-            key = cache_key(digests[path], renderer)
-            if cache is not None and cache.put(key, svg):
-                sources[path] = cache.entry_name(key)
-    rejected = cache.rejected if cache is not None else 0
-    return out, ChartStats(total=len(out), drawn=len(todo), cached=len(out) - len(todo),
-                           rejected=rejected), sources
+            from generator.charts import start_many
+
+            self._parts.append((paths, start_many(todo, self._jobs)))
+        self._drawn += len(paths)
+
+    def read_cached(self) -> dict[str, bytes]:
+        """The charts the cache holds, each entry read and checked; the bytes of one failing
+        its checks start drawing."""
+        bad = []
+        for path in self._to_read:
+            key = self._keys[path]
+            entry = self._cache.get_entry(key) if self._cache is not None else None
+            if entry is None:
+                bad.append(path)
+            else:
+                self._cached[path] = entry
+                self.sources[path] = self._cache.entry_name(key)  # type: ignore[union-attr]
+        self._to_read = []
+        self._draw(bad)
+        return dict(self._cached)
+
+    def finish(self, quiet: bool = False, start: float | None = None) -> dict[str, bytes]:
+        """The drawn charts' published bytes, waited for, each stored in the cache."""
+        bar = Progress("drawing charts", self._drawn, quiet=quiet, start=start)
+        out: dict[str, bytes] = {}
+        before = 0
+        parts, self._parts = self._parts, []
+        try:
+            for paths, pending in parts:
+                drawn = pending.result(lambda n, base=before: bar.update(base + n))
+                before += len(paths)
+                for path, svg in zip(paths, drawn, strict=True):
+                    out[path] = entry_bytes(svg)
+                    key = self._keys[path]
+                    if self._cache is not None and self._cache.put(key, svg):
+                        self.sources[path] = self._cache.entry_name(key)
+        finally:
+            bar.close()
+            for _paths, pending in parts:
+                pending.cancel()
+        return out
+
+    def cancel(self) -> None:
+        """Stop drawing what has not started (after an error)."""
+        parts, self._parts = self._parts, []
+        for _paths, pending in parts:
+            pending.cancel()
+
+    def stats(self) -> ChartStats:
+        rejected = self._cache.rejected if self._cache is not None else 0
+        total = len(self._keys)
+        return ChartStats(total=total, drawn=self._drawn, cached=total - self._drawn,
+                          rejected=rejected)
+
+
+class _Drawn:
+    """A stand-in renderer's charts, drawn already."""
+
+    def __init__(self, svgs: Sequence[bytes]) -> None:
+        self._svgs = list(svgs)
+
+    def result(self, progress=None) -> list[bytes]:
+        return self._svgs
+
+    def cancel(self) -> None:
+        pass
 
 
 # --- exports (pure) ------------------------------------------------------------------------
@@ -519,6 +577,18 @@ def render_site(computed: Computed, findings: Sequence[Finding], meta: pages.Sit
     return sheets, handbook, sum(n for _b, n in parts)
 
 
+class _CannotWrite(Exception):
+    """A file-system error while writing the site (its cause)."""
+
+
+def _writing(step, *args):
+    """``step(*args)``, its OSError raised as _CannotWrite."""
+    try:
+        return step(*args)
+    except OSError as exc:
+        raise _CannotWrite() from exc
+
+
 def default_jobs() -> int:
     """Worker processes for drawing and rendering: the cores this process may use."""
     return parallel.default_jobs()
@@ -571,24 +641,39 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
 
     results = results_cache_for(args, root)
     items, whole, rendered = render_site(computed, every, meta, jobs, results)
-    files = dict(whole.files)
-    files.update(items.files)
-    files.update(handbook_exports(computed, items.texts))
-    files.update(assets.static_assets())
     specs = {**whole.specs, **items.specs}
     digests = {**whole.digests, **items.digests}
     page_paths = sorted(whole.page_paths + items.page_paths)
     cache = chart_cache_for(args, root)
-    charts, stats, chart_files = draw_charts(specs, digests, cache, jobs, quiet=quiet,
-                                             start=start_time)
-    files.update(charts)
-    files[manifest.MANIFEST] = manifest.manifest_bytes(files, page_paths, computed, meta)
+    # The missing charts are drawn by other processes while this one exports, checks the
+    # cached charts and writes everything else into the new tree.
+    drawing = ChartDrawing(specs, digests, cache, jobs)
+    staging: output.Staging | None = None
     try:
-        result = output.write_site(out, files, chart_files)
-    except OSError as exc:
-        print(f"thermofolio build: cannot write {out}: {exc}; the previous site is unchanged",
-              file=sys.stderr)
+        files = dict(whole.files)
+        files.update(items.files)
+        files.update(handbook_exports(computed, items.texts))
+        files.update(assets.static_assets())
+        files.update(drawing.read_cached())
+        staging = _writing(output.Staging, out)
+        _writing(staging.add, files, drawing.sources)
+        hashed = manifest.file_digests(files)
+        drawn = drawing.finish(quiet=quiet, start=start_time)
+        _writing(staging.add, drawn, drawing.sources)
+        files.update(drawn)
+        files[manifest.MANIFEST] = manifest.manifest_bytes(files, page_paths, computed, meta,
+                                                           hashed)
+        _writing(staging.add, {manifest.MANIFEST: files[manifest.MANIFEST]})
+        result = _writing(staging.commit)
+    except _CannotWrite as exc:
+        print(f"thermofolio build: cannot write {out}: {exc.__cause__}; the previous site is "
+              "unchanged", file=sys.stderr)
         return 1
+    finally:
+        drawing.cancel()
+        if staging is not None:
+            staging.abort()  # after a commit: nothing left to remove
+    stats = drawing.stats()
     if not quiet:
         n_warn = sum(f.severity is Severity.WARNING for f in every)
         elapsed = time.perf_counter() - start_time
