@@ -183,29 +183,33 @@ def _species_refs(sp: Species, element_refs: Mapping[str, Species]) -> dict[str,
 
 
 def _species_made(shared: tuple[Mapping[str, Species], Mapping[str, Mapping[str, Species]],
-                                np.ndarray], sid: str
-                  ) -> tuple[SpeciesFunctions, FormationFunctions, SpeciesFunctions]:
-    """A species' functions on the grid, its formation functions and its chart curve."""
-    species, refs, grid = shared
+                                np.ndarray, Mapping[str, float]], sid: str
+                  ) -> tuple[SpeciesFunctions, FormationFunctions, SpeciesFunctions,
+                             tuple[Finding, ...]]:
+    """A species' functions on the grid, its formation functions, its chart curve and the
+    findings of its own consistency checks (generator.findings.species_checks)."""
+    from generator.findings import species_checks
+
+    species, refs, grid, tolerances = shared
     sp = species[sid]
     fine = chart_grid(sp.Tmin, sp.Tmax) if sp.cp else np.array([T_REF])
     return (species_functions(sp, grid), formation_functions(sp, refs[sid], grid),
-            species_functions(sp, fine))
+            species_functions(sp, fine), tuple(species_checks(sp, refs[sid], tolerances)))
 
 
 def _species_curves(species: Mapping[str, Species], element_refs: Mapping[str, Species],
-                    grid: np.ndarray, jobs: int, results: ResultStore | None,
-                    digester: Digester) -> dict[str, tuple]:
-    """Every species' (functions on the grid, formation functions, chart curve): pure
-    functions of the species, its element reference states and the grid, kept in
-    ``results`` under the digest of exactly those; the rest made by ``jobs`` forked
-    processes.  The grid functions are handed to species_functions' memo, so the reactions
-    that follow find them there."""
+                    grid: np.ndarray, tolerances: Mapping[str, float], jobs: int,
+                    results: ResultStore | None, digester: Digester) -> dict[str, tuple]:
+    """Every species' (functions on the grid, formation functions, chart curve, findings of
+    its checks): pure functions of the species, its element reference states, the grid and
+    the tolerances, kept in ``results`` under the digest of exactly those; the rest made by
+    ``jobs`` forked processes.  The grid functions are handed to species_functions' memo,
+    so the reactions that follow find them there."""
     refs = {sid: _species_refs(sp, element_refs) for sid, sp in species.items()}
-    digests = {sid: digester.parts("species", sp, refs[sid], grid) if results is not None
-               else "" for sid, sp in species.items()}
+    digests = {sid: digester.parts("species", sp, refs[sid], grid, tolerances)
+               if results is not None else "" for sid, sp in species.items()}
     made = kept_or_made(results, "species", digests, tuple, _species_made,
-                        (species, refs, grid), jobs)
+                        (species, refs, grid, tolerances), jobs)
     for sid, parts in made.items():
         if results is not None:
             for i, part in enumerate(parts):
@@ -267,10 +271,11 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None, jobs: int
     species: dict[str, SpeciesResult] = {}
     atoms_of = atom_species(hb)
     digester = digester_for(hb)
-    curves = _species_curves(hb.species, element_refs, grid, jobs, results, digester)
+    curves = _species_curves(hb.species, element_refs, grid, hb.settings.tolerances, jobs,
+                             results, digester)
     for sid, sp in hb.species.items():
         atoms = _atoms(sp, hb, atoms_of)
-        on_grid, formation, curve = curves[sid]
+        on_grid, formation, curve, _checks = curves[sid]
         species[sid] = SpeciesResult(
             species=sp, grid=on_grid, formation=formation, curve=curve,
             reactions=tuple(sorted(users.get(sid, ()))),
@@ -280,7 +285,7 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None, jobs: int
 
     reactions = _reactions(hb, grid, jobs, results)
     computed = Computed(hb, element_refs, species, reactions, ())
-    checks, findings = engine_checks(computed)
+    checks, findings = engine_checks(computed, {sid: made[3] for sid, made in curves.items()})
     reactions = {rid: _with_checks(r, checks.get(rid, ())) for rid, r in reactions.items()}
     prov = provenance(hb, today or today_from_environment())
     network = solve_network(hb, element_refs)

@@ -8,6 +8,7 @@ standard uncertainty (GUM coverage factor k = 2), whichever is larger.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
 
 import numpy as np
 
@@ -38,7 +39,9 @@ def _fmt(x: float) -> str:
     return f"{x:.3g}" if abs(x) < 0.1 else f"{x:.2f}"
 
 
-def _species_checks(sp: Species, element_refs, tol) -> list[Finding]:
+def species_checks(sp: Species, element_refs, tol) -> list[Finding]:
+    """One species' own checks: plausible ΔfH° and S°, ΔfG° against ΔfH° − T·ΔfS°, the fits
+    against the standard block at 298.15 K, jumps between fits and Cp bounds."""
     out: list[Finding] = []
     std = sp.standard
     dfH = std["dfH"].preferred if "dfH" in std else None
@@ -154,13 +157,18 @@ def _measured_checks(rid, rr, species, tol):
     return checks, out
 
 
-def engine_checks(computed) -> tuple[dict, list[Finding]]:
-    """Findings of every species and reaction; measured-vs-computed checks by reaction."""
+def engine_checks(computed, species_findings: Mapping[str, Sequence[Finding]] | None = None
+                  ) -> tuple[dict, list[Finding]]:
+    """Findings of every species and reaction; measured-vs-computed checks by reaction.
+    ``species_findings``: each species' species_checks, when made already."""
     hb = computed.handbook
     tol = hb.settings.tolerances
     findings: list[Finding] = []
     for sp in hb.species.values():
-        findings += _species_checks(sp, computed.element_refs, tol)
+        if species_findings is not None:
+            findings += species_findings[sp.id]
+        else:
+            findings += species_checks(sp, computed.element_refs, tol)
     checks: dict[str, list] = {}
     grid = np.asarray(hb.settings.temperatures)
     for rid, rr in computed.reactions.items():

@@ -20,7 +20,7 @@ import pytest
 from conftest import REPO, assemble
 from generator.charts import LineChartSpec, Series, spec_digest
 from generator.cli import main
-from generator.site.chart_cache import ChartCache, cache_key
+from generator.site.chart_cache import ChartCache, cache_key, entry_bytes
 
 publish_mod = importlib.import_module("generator.site.publish")
 EPOCH = "1767225600"  # 2026-01-01T00:00:00Z, an arbitrary fixed build date
@@ -204,8 +204,18 @@ def test_cache_get_put_round_trip(tmp_path):
     cache.put(key, doc)
     assert cache.entry(key) == tmp_path / "ab" / f"{key}.svg"
     assert cache.get(key) == doc and cache.hits == 1
+    entry = cache.entry(key).read_bytes()
+    assert entry == entry_bytes(doc)
+    # The whole entry's sha256 comes with it, as hashlib makes it of the file's bytes.
+    assert cache.get_checked(key) == (entry, hashlib.sha256(entry).hexdigest())
+    cut = entry.rfind(b"<!--")
+    for bad in (entry[:-1], entry[:cut] + entry[cut:].replace(b"bytes=", b"bytes=1"),
+                entry.replace(b"<svg", b"<svG", 1), b"\n" + entry):
+        cache.entry(key).write_bytes(bad)
+        assert cache.get_checked(key) is None and not cache.entry(key).exists()
+    assert cache.rejected == 4
     cache.put(key, b"<svg>not closed")
-    assert cache.get(key) is None and cache.rejected == 1  # the parse check refuses it
+    assert cache.get(key) is None and cache.rejected == 5  # the parse check refuses it
     with pytest.raises(ValueError):
         cache.entry("../escape")
 

@@ -372,6 +372,34 @@ def test_edit_redoes_only_its_neighbourhood_and_publishes_what_a_clean_build_doe
     assert _tree(out) == _tree(clean)
 
 
+def test_a_changed_tolerance_redoes_the_species_checks(tmp_path, capsys) -> None:
+    """Each species' own checks are kept with its curves; the key holds the tolerances, so
+    tightening them (one line of handbook.yaml) finds what a clean build finds."""
+    src, out, cache = tmp_path / "src", tmp_path / "out", tmp_path / "cache"
+    shutil.copytree(DEMO, src)
+    _build(src, out, capsys, "--cache", str(cache))
+    warnings = re.compile(r"(\d+) warnings")
+
+    def count(err: str) -> int:
+        m = warnings.search(err)
+        assert m, "no build summary"
+        return int(m.group(1))
+
+    capsys.readouterr()
+    assert main(["build", str(src), "-o", str(out), "-j", "1", "--cache", str(cache)]) == 0
+    before = count(capsys.readouterr().err)
+    path = src / "handbook.yaml"
+    text = path.read_text(encoding="utf-8")
+    assert "  polynomial_H_kJ: 0.5\n" in text and "  jump_Cp_J: 1.0\n" in text
+    path.write_text(text.replace("  polynomial_H_kJ: 0.5\n", "  polynomial_H_kJ: 0.001\n")
+                    .replace("  jump_Cp_J: 1.0\n", "  jump_Cp_J: 0.001\n"), encoding="utf-8")
+    assert main(["build", str(src), "-o", str(out), "-j", "1", "--cache", str(cache)]) == 0
+    assert count(capsys.readouterr().err) > before
+    clean = tmp_path / "clean"
+    _build(src, clean, capsys, "--no-cache")
+    assert _tree(out) == _tree(clean)
+
+
 def test_damaged_results_are_redone_never_used(tmp_path, capsys) -> None:
     src, out, cache = tmp_path / "src", tmp_path / "out", tmp_path / "cache"
     shutil.copytree(DEMO, src)

@@ -37,11 +37,20 @@ def cache_key(spec_digest: str, renderer: str = "") -> str:
     return hashlib.sha256(f"{spec_digest}\n{renderer}".encode()).hexdigest()
 
 
-def looks_like_svg(svg: bytes) -> bool:
-    """A cheap parse check: an XML declaration or <svg> first, a closing </svg> last."""
-    head = svg.lstrip()[:256]
-    return head.startswith((b"<?xml", b"<svg", b"<!DOCTYPE svg")) and \
-        svg.rstrip().endswith(b"</svg>")
+_SPACE = b" \t\n\r\x0b\x0c"  # what bytes.strip() strips
+_LEADING_SPACE = re.compile(b"[" + re.escape(_SPACE) + b"]*")
+
+
+def looks_like_svg(svg: bytes, end: int | None = None) -> bool:
+    """A cheap parse check of ``svg[:end]``: an XML declaration or <svg> first, a closing
+    </svg> last (ASCII white space around them ignored; nothing is copied)."""
+    end = len(svg) if end is None else end
+    start = _LEADING_SPACE.match(svg, 0, end).end()  # type: ignore[union-attr]
+    if not svg.startswith((b"<?xml", b"<svg", b"<!DOCTYPE svg"), start, end):
+        return False
+    while end > start and svg[end - 1] in _SPACE:
+        end -= 1
+    return svg.endswith(b"</svg>", start, end)
 
 
 class ChartCache:
@@ -77,6 +86,12 @@ class ChartCache:
     def get_entry(self, key: str) -> bytes | None:
         """The whole entry under ``key`` (the SVG and its trailer: the bytes a site
         publishes, see ``entry_bytes``) once it passes its checks, else None as ``get``."""
+        found = self.get_checked(key)
+        return None if found is None else found[0]
+
+    def get_checked(self, key: str) -> tuple[bytes, str] | None:
+        """``get_entry``'s bytes and their sha256 (hex, as the site's manifest lists the
+        file), made in the same pass as the check of the document's own sha256."""
         path = self.entry_name(key)
         try:
             with open(path, "rb") as fh:
@@ -84,8 +99,8 @@ class ChartCache:
         except OSError:
             self.misses += 1
             return None
-        svg = _verified(data)
-        if svg is None:
+        whole = _verified(data)
+        if whole is None:
             self.rejected += 1
             self.misses += 1
             try:
@@ -94,7 +109,7 @@ class ChartCache:
                 pass
             return None
         self.hits += 1
-        return data
+        return data, whole
 
     def put(self, key: str, svg: bytes) -> bool:
         """Store ``svg`` under ``key`` atomically (as ``entry_bytes``, with the permissions
@@ -120,17 +135,22 @@ def entry_bytes(svg: bytes) -> bytes:
                   f"bytes={len(svg)} -->\n").encode()
 
 
-def _verified(data: bytes) -> bytes | None:
-    """The document part of an entry if its length, sha256 and shape check out."""
+def _verified(data: bytes) -> str | None:
+    """The sha256 (hex) of a whole entry if its document's length, sha256 and shape check
+    out (the document's hash, continued over the trailer, is the whole entry's)."""
     cut = data.rfind(_MARK)
     if cut < 0:
         return None
     match = _TRAILER.match(data, cut)
     if match is None:
         return None
-    svg = data[:cut]
-    if len(svg) != int(match.group(2)):
+    if cut != int(match.group(2)):
         return None
-    if hashlib.sha256(svg).hexdigest().encode() != match.group(1):
+    view = memoryview(data)
+    h = hashlib.sha256(view[:cut])
+    if h.hexdigest().encode() != match.group(1):
         return None
-    return svg if looks_like_svg(svg) else None
+    if not looks_like_svg(data, cut):
+        return None
+    h.update(view[cut:])
+    return h.hexdigest()

@@ -37,6 +37,7 @@ from generator.progress import Progress
 from generator.results_cache import ResultsCache, batched
 from generator.site import assets, markdown_notes, output, pages
 from generator.site.chart_cache import ChartCache, cache_key, default_folder, entry_bytes
+from generator.site.manifest import file_digests
 
 NOT_IN_GIT = "not under version control"
 SPECIES_CSV = ("T", "Cp", "H_minus_H298", "S", "G", "gef", "dfH", "u.dfH", "dfG", "u.dfG",
@@ -197,6 +198,7 @@ class ChartDrawing:
         self.sources: dict[str, str] = {}  # chart path -> cache entry holding its bytes
         self._parts: list[tuple[list[str], object]] = []  # (chart paths, their drawing)
         self._cached: dict[str, bytes] = {}
+        self.file_sha256: dict[str, str] = {}  # chart path -> sha256 of a cached entry
         self._drawn = 0
         missing = [path for path, key in self._keys.items()
                    if cache is None or not os.path.exists(cache.entry_name(key))]
@@ -222,11 +224,11 @@ class ChartDrawing:
         bad = []
         for path in self._to_read:
             key = self._keys[path]
-            entry = self._cache.get_entry(key) if self._cache is not None else None
-            if entry is None:
+            found = self._cache.get_checked(key) if self._cache is not None else None
+            if found is None:
                 bad.append(path)
             else:
-                self._cached[path] = entry
+                self._cached[path], self.file_sha256[path] = found
                 self.sources[path] = self._cache.entry_name(key)  # type: ignore[union-attr]
         self._to_read = []
         self._draw(bad)
@@ -455,15 +457,17 @@ def notes_html(computed: Computed, keys: Sequence[str] | None = None) -> dict[st
 @dataclass(frozen=True)
 class ItemBatch:
     """What rendering some items' sheets gave: files by path, the sheets' paths, the charts
-    they show (specs and digests by chart path) and each item's JSON text.  A sheet from
-    the results cache holds each spec pickled (bytes), unpickled only if its chart must be
-    drawn (chart_spec)."""
+    they show (specs and digests by chart path), each item's JSON text and each file's
+    sha256 for the manifest (made where the files were rendered, and kept with them).  A
+    sheet from the results cache holds each spec pickled (bytes), unpickled only if its
+    chart must be drawn (chart_spec)."""
 
     files: dict[str, bytes]
     page_paths: list[str]
     specs: dict[str, object]
     digests: dict[str, str]
     texts: dict[str, str]
+    file_sha256: dict[str, str]
 
 
 def render_items(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
@@ -478,7 +482,8 @@ def render_items(computed: Computed, findings: Sequence[Finding], meta: pages.Si
     files = render_pages(sheets, compiled)
     exported, texts = item_exports(computed, findings, keys)
     files.update(exported)
-    return ItemBatch(files, [p.path for p in sheets], specs, digests, texts)
+    return ItemBatch(files, [p.path for p in sheets], specs, digests, texts,
+                     file_digests(files))
 
 
 def sheet_meta(meta: pages.SiteMeta, view: Computed, key: str) -> pages.SiteMeta:
@@ -527,8 +532,9 @@ def handbook_batch(computed: Computed, findings: Sequence[Finding], meta: pages.
     views, specs, digests = ({}, {}, {}) if part not in (None, "other") else \
         _plan(handbook_chart_entries(computed))
     site_pages = pages.handbook_pages(computed, findings, meta, views, part)
-    return ItemBatch(render_pages(site_pages, compiled), [p.path for p in site_pages], specs,
-                     digests, {})
+    files = render_pages(site_pages, compiled)
+    return ItemBatch(files, [p.path for p in site_pages], specs, digests, {},
+                     file_digests(files))
 
 
 def _render_task(shared: tuple, task: str | Sequence[str] | None) -> tuple[ItemBatch, int]:
@@ -538,7 +544,7 @@ def _render_task(shared: tuple, task: str | Sequence[str] | None) -> tuple[ItemB
         return handbook_batch(computed, findings, meta, task, compiled_templates(results)), 0
     by_item = _by_item(findings)
     digester = digester_for(computed.handbook)
-    merged = ItemBatch({}, [], {}, {}, {})
+    merged = _no_batch()
     rendered = 0
     with batched(results):  # the task's sheet entries in one transaction
         for key in task:
@@ -549,7 +555,12 @@ def _render_task(shared: tuple, task: str | Sequence[str] | None) -> tuple[ItemB
     return merged, rendered
 
 
+def _no_batch() -> ItemBatch:
+    return ItemBatch({}, [], {}, {}, {}, {})
+
+
 def _merge(into: ItemBatch, b: ItemBatch) -> None:
+    into.file_sha256.update(b.file_sha256)
     into.files.update(b.files)
     into.page_paths.extend(b.page_paths)
     into.specs.update(b.specs)
@@ -571,7 +582,7 @@ def render_site(computed: Computed, findings: Sequence[Finding], meta: pages.Sit
     tasks: list = whole + [tuple(chunk) for chunk in chunks]
     parts = parallel.fork_map(_render_task, tasks, jobs if n > 1 else 1,
                               (computed, findings, meta, results), 2)
-    handbook, sheets = ItemBatch({}, [], {}, {}, {}), ItemBatch({}, [], {}, {}, {})
+    handbook, sheets = _no_batch(), _no_batch()
     for i, (batch, _n) in enumerate(parts):
         _merge(handbook if i < len(whole) else sheets, batch)
     return sheets, handbook, sum(n for _b, n in parts)
@@ -657,7 +668,8 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
         files.update(drawing.read_cached())
         staging = _writing(output.Staging, out)
         _writing(staging.add, files, drawing.sources)
-        hashed = manifest.file_digests(files)
+        hashed = {**whole.file_sha256, **items.file_sha256, **drawing.file_sha256}
+        hashed.update(file_digests({p: d for p, d in files.items() if p not in hashed}))
         drawn = drawing.finish(quiet=quiet, start=start_time)
         _writing(staging.add, drawn, drawing.sources)
         files.update(drawn)
