@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import json
 import os
 import re
 import shutil
@@ -161,3 +162,29 @@ def test_the_working_folder_is_part_of_the_stamp(env, capsys, monkeypatch):
     monkeypatch.chdir(REPO)
     assert "up to date" not in build(src, out, cache, capsys)
     assert f"<code>{src}/species/" in sheet.read_text(encoding="utf-8")
+
+
+def test_the_record_holds_the_output_folder_as_it_is(env, capsys):
+    """The writer accounts for every file it left (kept, linked from the cache or written),
+    and the record it stores equals a fresh reading of the folder: after a first build,
+    an edit, and a build that changes nothing but runs (its record removed)."""
+    src, out, cache = env
+    ok = argparse.Namespace(no_cache=False, since=None, cache=str(cache))
+
+    def recorded() -> dict:
+        path = build_cmd._record_path(src, out, ok)
+        return json.loads(path.read_text(encoding="utf-8"))["files"]
+
+    build(src, out, cache, capsys)
+    assert recorded() == build_cmd.output_state(out)
+    path = src / "species" / "water-liquid.yaml"
+    path.write_text(path.read_text(encoding="utf-8").replace("-285.83", "-285.50"),
+                    encoding="utf-8")
+    err = build(src, out, cache, capsys)
+    assert 0 < int(SUMMARY.search(err).group(4))
+    assert recorded() == build_cmd.output_state(out)
+    build_cmd._record_path(src, out, ok).unlink()
+    err = build(src, out, cache, capsys)
+    assert "up to date" not in err and int(SUMMARY.search(err).group(4)) == 0
+    assert recorded() == build_cmd.output_state(out)
+    assert "up to date" in build(src, out, cache, capsys)

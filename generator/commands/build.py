@@ -224,9 +224,12 @@ def _entries_state(paths: list[str]) -> list[list[int]]:
 
 def save_record(sources: Path, output: Path, args: argparse.Namespace, stamp: str,
                 record: dict) -> None:
-    """Store the stamp with the output folder's state; a failure only costs a rebuild."""
+    """Store the stamp with the output folder's state (the writer's account of it, else read
+    from the folder); a failure only costs a rebuild."""
     path = _record_path(sources, output, args)
-    doc = {**record, "stamp": stamp, "files": output_state(output),
+    state = record.get("files")
+    doc = {**record, "stamp": stamp,
+           "files": output_state(output) if state is None else state,
            "cache_state": _entries_state(record.get("cache_entries", []))}
     try:
         path.parent.mkdir(parents=True, exist_ok=True)

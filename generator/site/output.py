@@ -28,7 +28,7 @@ import shutil
 import stat
 import tempfile
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 MARKER = ".thermofolio-site"
@@ -66,10 +66,14 @@ class WriteResult:
     kept: int
     removed: int
     swapped: bool
+    # Every file the site holds afterwards: site path -> [size, mtime in ns, inode], as
+    # commands.build.output_state would read them (the build record keeps this).
+    state: Mapping[str, list[int]] | None = field(default=None, compare=False, repr=False)
 
 
-def _old_files(out: Path) -> dict[str, tuple[int, int, int]]:
-    """Regular files of a previous marked site: site path -> (size, device, inode)."""
+def _old_files(out: Path) -> dict[str, tuple[int, int, int, int]]:
+    """Regular files of a previous marked site: site path -> (size, device, inode,
+    modification time in ns)."""
     if not (out / MARKER).is_file():
         return {}
     found: dict[str, tuple[int, int, int]] = {}
@@ -79,7 +83,7 @@ def _old_files(out: Path) -> dict[str, tuple[int, int, int]]:
             st = os.lstat(os.path.join(dirpath, name))
             if stat.S_ISREG(st.st_mode):
                 rel = name if rel_dir == "." else f"{rel_dir}/{name}".replace(os.sep, "/")
-                found[rel] = (st.st_size, st.st_dev, st.st_ino)
+                found[rel] = (st.st_size, st.st_dev, st.st_ino, st.st_mtime_ns)
     return found
 
 
@@ -188,6 +192,7 @@ class Staging:
         self._kept_later: list[tuple[str, str]] = []  # unchanged files, before the folder
         self._paths: set[str] = set()
         self._same = 0
+        self._state: dict[str, list[int]] = {}
         self._mode = _new_file_mode()
         self._done = False
         self.add({MARKER: MARKER_TEXT})
@@ -209,7 +214,7 @@ class Staging:
                 if self._tmp is None:
                     self._kept_later.append((rel, native))
                 else:
-                    _keep(os.path.join(self._out_s, native), self._target(native))
+                    self._keep(rel, native)
                 continue
             self._folder()
             if rel == MARKER:
@@ -217,6 +222,20 @@ class Staging:
             target = self._target(native)
             if not (rel in sources and _linked(sources[rel], target, data, self._mode)):
                 Path(target).write_bytes(data)
+            self._note(rel, target)
+
+    def _keep(self, rel: str, native: str) -> None:
+        """Put the previous site's file into the new tree (the same file, when linked)."""
+        target = self._target(native)
+        if _keep(os.path.join(self._out_s, native), target):
+            size, _dev, ino, mtime = self._old[rel]
+            self._state[rel] = [size, mtime, ino]
+        else:
+            self._note(rel, target)
+
+    def _note(self, rel: str, path: str) -> None:
+        st = os.lstat(path)
+        self._state[rel] = [st.st_size, st.st_mtime_ns, st.st_ino]
 
     def _unchanged(self, rel: str, native: str, data: bytes, source: str | None) -> bool:
         """The previous site's file holds ``data``: it is a link of the cache entry that
@@ -224,7 +243,7 @@ class Staging:
         was = self._old.get(rel)
         if was is None or was[0] != len(data):
             return False
-        if source is not None and _is_file(source, was[1:]):
+        if source is not None and _is_file(source, was[1:3]):
             return True
         return _same_bytes(os.path.join(self._out_s, native), data, was[0])
 
@@ -239,8 +258,9 @@ class Staging:
         kept, self._kept_later = self._kept_later, []
         if (MARKER, MARKER) not in kept:
             (self._tmp / MARKER).write_bytes(MARKER_TEXT)  # the previous one differed
-        for _rel, native in sorted(kept, key=lambda k: k[0] != MARKER):
-            _keep(os.path.join(self._out_s, native), self._target(native))
+            self._note(MARKER, str(self._tmp / MARKER))
+        for rel, native in sorted(kept, key=lambda k: k[0] != MARKER):
+            self._keep(rel, native)
 
     def _target(self, native: str) -> str:
         assert self._tmp is not None
@@ -259,10 +279,13 @@ class Staging:
         self._done = True
         removed = len(self._old.keys() - self._paths)
         if self._tmp is None and not removed:
-            return WriteResult(rewritten=0, kept=self._same, removed=0, swapped=False)
-        result = WriteResult(rewritten=len(self._paths) - self._same, kept=self._same,
-                             removed=removed, swapped=True)
+            state = {rel: [size, mtime, ino] for rel, (size, _dev, ino, mtime)
+                     in self._old.items()}
+            return WriteResult(rewritten=0, kept=self._same, removed=0, swapped=False,
+                               state=state)
         self._folder()
+        result = WriteResult(rewritten=len(self._paths) - self._same, kept=self._same,
+                             removed=removed, swapped=True, state=self._state)
         tmp, out = self._tmp, self.out
         assert tmp is not None
         aside: Path | None = None
@@ -325,9 +348,12 @@ def _linked(source: str, target: str, data: bytes, mode: int) -> bool:
     return True
 
 
-def _keep(old: str | Path, new: str | Path) -> None:
-    """Put the previous site's unchanged file at ``new``, keeping its modification time."""
+def _keep(old: str | Path, new: str | Path) -> bool:
+    """Put the previous site's unchanged file at ``new``, keeping its modification time;
+    True when it is the same file (a hard link), False for a copy."""
     try:
         os.link(old, new)
     except OSError:
         shutil.copy2(old, new)
+        return False
+    return True

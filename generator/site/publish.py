@@ -705,7 +705,8 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
                              "caution": handbook.settings.caution or CAUTION,
                              "cache_entries": [] if cache is None else sorted(
                                  cache.entry_name(cache_key(d, renderer))
-                                 for d in digests.values())}
+                                 for d in digests.values()),
+                             "files": result.state}
     return 0
 
 
