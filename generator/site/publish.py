@@ -15,6 +15,7 @@ import subprocess
 import sys
 import time
 from collections.abc import Mapping, Sequence
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, replace
 from datetime import datetime, timezone
 from pathlib import Path
@@ -665,9 +666,15 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
         files.update(items.files)
         files.update(handbook_exports(computed, items.texts))
         files.update(assets.static_assets())
-        files.update(drawing.read_cached())
-        staging = _writing(output.Staging, out)
-        _writing(staging.add, files, drawing.sources)
+        # The cached charts are read and checked by a thread (reading and hashing release
+        # the interpreter lock) while this one writes the pages into the new tree.
+        with ThreadPoolExecutor(1, thread_name_prefix="thermofolio-chart-reader") as reader:
+            cached_charts = reader.submit(drawing.read_cached)
+            staging = _writing(output.Staging, out)
+            _writing(staging.add, files)
+            charts = cached_charts.result()
+        _writing(staging.add, charts, drawing.sources)
+        files.update(charts)
         hashed = {**whole.file_sha256, **items.file_sha256, **drawing.file_sha256}
         hashed.update(file_digests({p: d for p, d in files.items() if p not in hashed}))
         drawn = drawing.finish(quiet=quiet, start=start_time)
