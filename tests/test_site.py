@@ -352,6 +352,45 @@ def test_a_site_staged_in_parts_is_the_site_written_at_once(tmp_path: Path) -> N
     assert sorted(p.name for p in tmp_path.iterdir()) == ["entry.svg", "once", "parts"]
 
 
+def test_files_placed_by_a_forked_process_are_part_of_the_site(tmp_path: Path) -> None:
+    """output.Staging.open/place/placed: a process forked after open() puts files into the
+    new tree and hands back only where they went; the parent commits the same folder
+    write_site makes, an unchanged file kept as the previous site's (its inode and time)."""
+    import multiprocessing
+
+    if "fork" not in multiprocessing.get_all_start_methods():
+        pytest.skip("the platform cannot fork")
+    out = tmp_path / "out"
+    output.write_site(out, {"index.html": b"<p>1</p>", "species/a.html": b"a"})
+    old = (out / "species" / "a.html").stat()
+    new = {"index.html": b"<p>2</p>", "species/a.html": b"a", "species/b.html": b"b"}
+    output.write_site(tmp_path / "once", new)
+    staging = output.Staging(out)
+    staging.open()
+    with multiprocessing.get_context("fork").Pool(1) as pool:
+        placements = pool.apply(staging.place, ({k: new[k] for k in ("species/a.html",
+                                                                     "species/b.html")},))
+    assert [(rel, kept) for rel, kept, _state in placements] == [("species/a.html", True),
+                                                                ("species/b.html", False)]
+    staging.placed(placements)
+    staging.add({"index.html": new["index.html"]})
+    with pytest.raises(ValueError, match="already part"):
+        staging.placed(placements)
+    result = staging.commit()
+    assert result.swapped and result.kept == 2 and result.rewritten == 2  # with the marker
+    assert tree(out) == tree(tmp_path / "once")
+    kept = (out / "species" / "a.html").stat()
+    assert (kept.st_ino, kept.st_mtime_ns) == (old.st_ino, old.st_mtime_ns)
+    assert result.state == {str(p.relative_to(out)): [p.stat().st_size, p.stat().st_mtime_ns,
+                                                      p.stat().st_ino]
+                            for p in out.rglob("*") if p.is_file()}
+    staging = output.Staging(out)  # an open folder that receives nothing new
+    staging.open()
+    staging.placed(staging.place(new))
+    assert not staging.commit().swapped
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["once", "out"]
+
+
 def test_staging_touches_nothing_until_a_file_differs(tmp_path: Path) -> None:
     """No temporary folder while every file equals the previous site's; an abort leaves the
     previous site as it was and no folder behind; a file gone from the site is a change."""

@@ -117,24 +117,29 @@ def file_digests(files: Mapping[str, bytes]) -> dict[str, str]:
 
 
 def manifest_doc(files: Mapping[str, bytes], page_paths: Sequence[str], computed: Computed,
-                 meta: SiteMeta, digests: Mapping[str, str] | None = None) -> dict:
-    """The manifest of a build whose output is ``files`` (``manifest.json`` left out);
+                 meta: SiteMeta, digests: Mapping[str, str] | None = None,
+                 sizes: Mapping[str, int] | None = None) -> dict:
+    """The manifest of a build whose output is ``files`` (``manifest.json`` left out) and
+    the files of ``sizes`` (written elsewhere: their lengths, their sha256 in ``digests``);
     ``digests``: file_digests of some of them, already made."""
     files = {MARKER: MARKER_TEXT, **files}  # written beside them by generator.site.output
     known = digests or {}
+    lengths = {path: len(data) for path, data in files.items()}
+    lengths.update(sizes or {})
     every = all_sources(computed)  # the sources of each whole-handbook page
     return {
         "tool": "thermofolio", "version": __version__, "source_revision": meta.revision,
         "build_date": meta.build_date,
         "files": [{"path": path,
                    "sha256": known.get(path) or hashlib.sha256(files[path]).hexdigest(),
-                   "bytes": len(files[path])} for path in sorted(files) if path != MANIFEST],
+                   "bytes": lengths[path]} for path in sorted(lengths) if path != MANIFEST],
         "pages": {path: page_sources(computed, path, every) for path in sorted(page_paths)},
     }
 
 
 def manifest_bytes(files: Mapping[str, bytes], page_paths: Sequence[str],
                    computed: Computed, meta: SiteMeta,
-                   digests: Mapping[str, str] | None = None) -> bytes:
-    doc = manifest_doc(files, page_paths, computed, meta, digests)
+                   digests: Mapping[str, str] | None = None,
+                   sizes: Mapping[str, int] | None = None) -> bytes:
+    doc = manifest_doc(files, page_paths, computed, meta, digests, sizes)
     return (json_text(doc, 2) + "\n").encode()  # one file entry per line

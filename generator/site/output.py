@@ -27,7 +27,7 @@ import os
 import shutil
 import stat
 import tempfile
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -180,7 +180,10 @@ class Staging:
     """A site written in parts: ``add`` files (as often as needed, each path once), then
     ``commit`` swaps the complete new tree in (write_site's rules), or ``abort`` drops it.
     The temporary folder is made only once a file differs from the previous site's, so a
-    build that changes nothing touches nothing.  The marker is always part of the site."""
+    build that changes nothing touches nothing, unless ``open`` makes it at once for worker
+    processes to ``place`` files in (the parent takes them with ``placed``; a folder that
+    then holds nothing new is removed, not swapped in).  The marker is always part of the
+    site."""
 
     def __init__(self, out: Path) -> None:
         self.out = Path(os.path.abspath(out))
@@ -200,29 +203,64 @@ class Staging:
     def add(self, files: Mapping[str, bytes], sources: Mapping[str, str] | None = None
             ) -> None:
         """Put ``files`` (site path -> bytes) into the new tree; ``sources`` as write_site's."""
-        if self._done:
-            raise RuntimeError("this site has been committed or aborted")
+        self._usable()
         sources = sources or {}
         for rel in sorted(files):
-            if rel in self._paths:
-                raise ValueError(f"{rel!r} is already part of this site")
-            data = files[rel]
-            native = _checked(rel)
-            self._paths.add(rel)
-            if self._unchanged(rel, native, data, sources.get(rel)):
-                self._same += 1
-                if self._tmp is None:
-                    self._kept_later.append((rel, native))
-                else:
-                    self._keep(rel, native)
-                continue
-            self._folder()
-            if rel == MARKER:
-                continue  # the folder's first file, written by _folder
-            target = self._target(native)
-            if not (rel in sources and _linked(sources[rel], target, data, self._mode)):
-                Path(target).write_bytes(data)
-            self._note(rel, target)
+            self._claim(rel)
+            self._same += self._put(rel, files[rel], sources.get(rel))
+
+    def open(self) -> None:
+        """Make the temporary folder now, so processes forked after this can ``place``
+        files in it."""
+        self._usable()
+        self._folder()
+
+    def place(self, files: Mapping[str, bytes]) -> list[tuple[str, bool, list[int]]]:
+        """Put ``files`` into the open folder, from this process or one forked after
+        ``open`` (a worker, which needs no bytes sent back); what it returns goes to
+        ``placed`` in the process that commits."""
+        if self._tmp is None:
+            raise RuntimeError("place() needs an open() folder")
+        out = []
+        for rel in sorted(files):
+            kept = self._put(rel, files[rel], None)
+            out.append((rel, kept, self._state[rel]))
+        return out
+
+    def placed(self, placements: Sequence[tuple[str, bool, list[int]]]) -> None:
+        """Take the files ``place`` put (site path, kept from the previous site, state)."""
+        self._usable()
+        for rel, kept, state in placements:
+            self._claim(rel)
+            self._same += kept
+            self._state[rel] = state
+
+    def _usable(self) -> None:
+        if self._done:
+            raise RuntimeError("this site has been committed or aborted")
+
+    def _claim(self, rel: str) -> None:
+        if rel in self._paths:
+            raise ValueError(f"{rel!r} is already part of this site")
+        self._paths.add(rel)
+
+    def _put(self, rel: str, data: bytes, source: str | None) -> bool:
+        """Put one file into the new tree; True when it is the previous site's, kept."""
+        native = _checked(rel)
+        if self._unchanged(rel, native, data, source):
+            if self._tmp is None:
+                self._kept_later.append((rel, native))
+            else:
+                self._keep(rel, native)
+            return True
+        self._folder()
+        if rel == MARKER:
+            return False  # the folder's first file, written by _folder
+        target = self._target(native)
+        if not (source is not None and _linked(source, target, data, self._mode)):
+            Path(target).write_bytes(data)
+        self._note(rel, target)
+        return False
 
     def _keep(self, rel: str, native: str) -> None:
         """Put the previous site's file into the new tree (the same file, when linked)."""
@@ -278,9 +316,10 @@ class Staging:
             raise RuntimeError("this site has been committed or aborted")
         self._done = True
         removed = len(self._old.keys() - self._paths)
-        if self._tmp is None and not removed:
+        if self._same == len(self._paths) and not removed:
             state = {rel: [size, mtime, ino] for rel, (size, _dev, ino, mtime)
                      in self._old.items()}
+            self.abort()  # an open folder that holds nothing new
             return WriteResult(rewritten=0, kept=self._same, removed=0, swapped=False,
                                state=state)
         self._folder()

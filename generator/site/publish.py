@@ -16,7 +16,7 @@ import sys
 import time
 from collections.abc import Mapping, Sequence
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from datetime import datetime, timezone
 from pathlib import Path
 
@@ -469,6 +469,9 @@ class ItemBatch:
     digests: dict[str, str]
     texts: dict[str, str]
     file_sha256: dict[str, str]
+    # Files a worker put into the new tree itself (output.Staging.place), their bytes left
+    # out of ``files``: (site path, kept from the previous site, [size, mtime, inode]).
+    placed: list = field(default_factory=list)
 
 
 def render_items(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
@@ -539,10 +542,12 @@ def handbook_batch(computed: Computed, findings: Sequence[Finding], meta: pages.
 
 
 def _render_task(shared: tuple, task: str | Sequence[str] | None) -> tuple[ItemBatch, int]:
-    """One task of render_site: a share of the handbook pages, or some items' sheets."""
-    computed, findings, meta, results = shared
+    """One task of render_site: a share of the handbook pages, or some items' sheets, put
+    into the new tree when a staging is shared."""
+    computed, findings, meta, results, staging = shared
     if task is None or isinstance(task, str):  # None: every handbook page
-        return handbook_batch(computed, findings, meta, task, compiled_templates(results)), 0
+        done = handbook_batch(computed, findings, meta, task, compiled_templates(results))
+        return _placed(done, staging), 0
     by_item = _by_item(findings)
     digester = digester_for(computed.handbook)
     merged = _no_batch()
@@ -553,7 +558,18 @@ def _render_task(shared: tuple, task: str | Sequence[str] | None) -> tuple[ItemB
                                         meta, results, digester)
             rendered += fresh
             _merge(merged, batch)
-    return merged, rendered
+    return _placed(merged, staging), rendered
+
+
+def _placed(batch: ItemBatch, staging: output.Staging | None) -> ItemBatch:
+    """``batch`` with its files put into ``staging``'s new tree, their bytes dropped."""
+    if staging is None:
+        return batch
+    try:
+        placed = staging.place(batch.files)
+    except OSError as exc:
+        raise _CannotWrite(str(exc)) from exc
+    return replace(batch, files={}, placed=placed)
 
 
 def _no_batch() -> ItemBatch:
@@ -561,6 +577,7 @@ def _no_batch() -> ItemBatch:
 
 
 def _merge(into: ItemBatch, b: ItemBatch) -> None:
+    into.placed.extend(b.placed)
     into.file_sha256.update(b.file_sha256)
     into.files.update(b.files)
     into.page_paths.extend(b.page_paths)
@@ -570,19 +587,22 @@ def _merge(into: ItemBatch, b: ItemBatch) -> None:
 
 
 def render_site(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
-                jobs: int, results: ResultsCache | None = None
+                jobs: int, results: ResultsCache | None = None,
+                staging: output.Staging | None = None
                 ) -> tuple[ItemBatch, ItemBatch, int]:
     """Every page: (the sheets (render_sheet), the handbook pages, sheets rendered now rather
     than taken from ``results``).  With at least parallel.MIN_ITEMS items the work is split
     over ``jobs`` forked workers (generator.parallel): the handbook pages as four tasks
-    (pages.HANDBOOK_PARTS), the sheets as parallel.CHUNKS_PER_JOB × ``jobs`` more."""
+    (pages.HANDBOOK_PARTS), the sheets as parallel.CHUNKS_PER_JOB × ``jobs`` more.  With an
+    open ``staging`` each task puts its files into the new tree itself (the batches then
+    hold where they went instead of their bytes)."""
     # many small chunks, so no worker idles long at the end while another finishes
     chunks = parallel.split(pages.item_keys(computed), jobs)
     n = len(chunks)
     whole: list = list(pages.HANDBOOK_PARTS) if n > 1 else [None]
     tasks: list = whole + [tuple(chunk) for chunk in chunks]
     parts = parallel.fork_map(_render_task, tasks, jobs if n > 1 else 1,
-                              (computed, findings, meta, results), 2)
+                              (computed, findings, meta, results, staging), 2)
     handbook, sheets = _no_batch(), _no_batch()
     for i, (batch, _n) in enumerate(parts):
         _merge(handbook if i < len(whole) else sheets, batch)
@@ -652,16 +672,23 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
     jobs = int(getattr(args, "jobs", 0) or default_jobs())
 
     results = results_cache_for(args, root)
-    items, whole, rendered = render_site(computed, every, meta, jobs, results)
-    specs = {**whole.specs, **items.specs}
-    digests = {**whole.digests, **items.digests}
-    page_paths = sorted(whole.page_paths + items.page_paths)
     cache = chart_cache_for(args, root)
-    # The missing charts are drawn by other processes while this one exports, checks the
-    # cached charts and writes everything else into the new tree.
-    drawing = ChartDrawing(specs, digests, cache, jobs)
     staging: output.Staging | None = None
+    drawing: ChartDrawing | None = None
     try:
+        # The workers put the pages and exports they render into the new tree themselves.
+        staging = _writing(output.Staging, out)
+        _writing(staging.open)
+        items, whole, rendered = render_site(computed, every, meta, jobs, results, staging)
+        placed = whole.placed + items.placed
+        _writing(staging.placed, placed)
+        sizes = {rel: state[0] for rel, _kept, state in placed}
+        specs = {**whole.specs, **items.specs}
+        digests = {**whole.digests, **items.digests}
+        page_paths = sorted(whole.page_paths + items.page_paths)
+        # The missing charts are drawn by other processes while this one exports, checks
+        # the cached charts and writes everything else into the new tree.
+        drawing = ChartDrawing(specs, digests, cache, jobs)
         files = dict(whole.files)
         files.update(items.files)
         files.update(handbook_exports(computed, items.texts))
@@ -670,7 +697,6 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
         # the interpreter lock) while this one writes the pages into the new tree.
         with ThreadPoolExecutor(1, thread_name_prefix="thermofolio-chart-reader") as reader:
             cached_charts = reader.submit(drawing.read_cached)
-            staging = _writing(output.Staging, out)
             _writing(staging.add, files)
             charts = cached_charts.result()
         _writing(staging.add, charts, drawing.sources)
@@ -681,15 +707,16 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
         _writing(staging.add, drawn, drawing.sources)
         files.update(drawn)
         files[manifest.MANIFEST] = manifest.manifest_bytes(files, page_paths, computed, meta,
-                                                           hashed)
+                                                           hashed, sizes)
         _writing(staging.add, {manifest.MANIFEST: files[manifest.MANIFEST]})
         result = _writing(staging.commit)
     except _CannotWrite as exc:
-        print(f"thermofolio build: cannot write {out}: {exc.__cause__}; the previous site is "
-              "unchanged", file=sys.stderr)
+        print(f"thermofolio build: cannot write {out}: {exc.__cause__ or exc}; the previous "
+              "site is unchanged", file=sys.stderr)
         return 1
     finally:
-        drawing.cancel()
+        if drawing is not None:
+            drawing.cancel()
         if staging is not None:
             staging.abort()  # after a commit: nothing left to remove
     stats = drawing.stats()
