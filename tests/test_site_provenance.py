@@ -275,6 +275,8 @@ def test_manifest(site: Path) -> None:
     assert set(listed) == on_disk - {"manifest.json"}
     for path, digest in listed.items():
         assert hashlib.sha256((site / path).read_bytes()).hexdigest() == digest, path
+    for f in doc["files"]:
+        assert (site / f["path"]).stat().st_size == f["bytes"], f["path"]
     pages = doc["pages"]
     assert pages["species/water-gas.html"] == ["references.yaml", "species/water-gas.yaml"]
     assert pages["reactions/burning.html"] == ["reactions/burning.yaml", "species/hydrogen.yaml",

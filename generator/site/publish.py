@@ -1,9 +1,11 @@
 """``publish``: compute, build every page context, render, draw the charts, then write.
 
-Everything is read and computed before the first byte is written; the write is a swap of
-a complete temporary folder (generator.site.output), so a failure leaves the previous site
-as it was.  The output depends only on the sources: the build date is SOURCE_DATE_EPOCH or
-the newest source file's modification time, never the clock.
+Everything is read and computed before the first byte is written.  The files go into a
+fresh temporary folder (generator.site.output.Staging) as they are ready — the render
+workers hand their pages to it, the drawn charts follow — and the write ends in a swap of
+that complete folder, so a failure leaves the previous site as it was.  The output
+depends only on the sources: the build date is SOURCE_DATE_EPOCH or the newest source
+file's modification time, never the clock.
 """
 
 from __future__ import annotations
