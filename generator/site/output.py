@@ -215,15 +215,25 @@ class Staging:
         self._usable()
         self._folder()
 
-    def place(self, files: Mapping[str, bytes]) -> list[tuple[str, bool, list[int]]]:
+    def place(self, files: Mapping[str, bytes], sources: Mapping[str, str] | None = None,
+              shared: bool = False) -> list[tuple[str, bool, list[int]]]:
         """Put ``files`` into the open folder, from this process or one forked after
         ``open`` (a worker, which needs no bytes sent back); what it returns goes to
-        ``placed`` in the process that commits."""
+        ``placed`` in the process that commits.  ``sources`` as write_site's.  ``shared``:
+        several processes may put the same paths (content-addressed charts, whose path
+        names their bytes), so each file is created exclusively and a path another process
+        has made already is left out of the result (its maker reports it)."""
         if self._tmp is None:
             raise RuntimeError("place() needs an open() folder")
+        sources = sources or {}
         out = []
         for rel in sorted(files):
-            kept = self._put(rel, files[rel], None)
+            try:
+                kept = self._put(rel, files[rel], sources.get(rel), shared)
+            except FileExistsError:
+                if not shared:
+                    raise
+                continue
             out.append((rel, kept, self._state[rel]))
         return out
 
@@ -244,28 +254,34 @@ class Staging:
             raise ValueError(f"{rel!r} is already part of this site")
         self._paths.add(rel)
 
-    def _put(self, rel: str, data: bytes, source: str | None) -> bool:
-        """Put one file into the new tree; True when it is the previous site's, kept."""
+    def _put(self, rel: str, data: bytes, source: str | None, exclusive: bool = False
+             ) -> bool:
+        """Put one file into the new tree; True when it is the previous site's, kept.
+        ``exclusive``: FileExistsError when the path exists already (nothing is changed)."""
         native = _checked(rel)
         if self._unchanged(rel, native, data, source):
             if self._tmp is None:
                 self._kept_later.append((rel, native))
             else:
-                self._keep(rel, native)
+                self._keep(rel, native, exclusive)
             return True
         self._folder()
         if rel == MARKER:
             return False  # the folder's first file, written by _folder
         target = self._target(native)
-        if not (source is not None and _linked(source, target, data, self._mode)):
-            Path(target).write_bytes(data)
+        if not (source is not None and _linked(source, target, data, self._mode, exclusive)):
+            if exclusive:
+                with open(target, "xb") as fh:
+                    fh.write(data)
+            else:
+                Path(target).write_bytes(data)
         self._note(rel, target)
         return False
 
-    def _keep(self, rel: str, native: str) -> None:
+    def _keep(self, rel: str, native: str, exclusive: bool = False) -> None:
         """Put the previous site's file into the new tree (the same file, when linked)."""
         target = self._target(native)
-        if _keep(os.path.join(self._out_s, native), target):
+        if _keep(os.path.join(self._out_s, native), target, exclusive):
             size, _dev, ino, mtime = self._old[rel]
             self._state[rel] = [size, mtime, ino]
         else:
@@ -373,26 +389,43 @@ def _new_file_mode() -> int:
     return 0o666 & ~mask
 
 
-def _linked(source: str, target: str, data: bytes, mode: int) -> bool:
+def _linked(source: str, target: str, data: bytes, mode: int, exclusive: bool = False
+            ) -> bool:
     """Hard-link ``source`` as ``target`` when it holds ``data``'s length and the permissions
     a written file would get; False (nothing made) otherwise or when linking fails (another
-    file system, say).  The source's bytes were checked when it was read."""
+    file system, say).  The source's bytes were checked when it was read.  ``exclusive``:
+    a ``target`` that exists already raises FileExistsError."""
     try:
         st = os.stat(source)
         if st.st_size != len(data) or stat.S_IMODE(st.st_mode) != mode:
             return False
         os.link(source, target)
+    except FileExistsError:
+        if exclusive:
+            raise
+        return False
     except OSError:
         return False
     return True
 
 
-def _keep(old: str | Path, new: str | Path) -> bool:
+def _keep(old: str | Path, new: str | Path, exclusive: bool = False) -> bool:
     """Put the previous site's unchanged file at ``new``, keeping its modification time;
-    True when it is the same file (a hard link), False for a copy."""
+    True when it is the same file (a hard link), False for a copy.  ``exclusive``: a
+    ``new`` that exists already raises FileExistsError."""
     try:
         os.link(old, new)
-    except OSError:
+    except FileExistsError:
+        if exclusive:
+            raise
         shutil.copy2(old, new)
+        return False
+    except OSError:
+        if exclusive:
+            with open(old, "rb") as src, open(new, "xb") as dst:
+                shutil.copyfileobj(src, dst)
+            shutil.copystat(old, new)
+        else:
+            shutil.copy2(old, new)
         return False
     return True

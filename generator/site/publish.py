@@ -189,13 +189,19 @@ class ChartDrawing:
     """The charts of one build: the charts the cache has no entry for start drawing when
     this is made, once, in a pool of ``jobs`` processes that works while the caller goes on
     (generator.charts.start_many); ``read_cached`` then reads and checks the cache's entries
-    (one that fails its checks is drawn as well) and ``finish`` waits for the drawn charts
+    the render workers did not take already (one that fails its checks is drawn as well)
+    and ``finish`` waits for the drawn charts
     and stores them back.  matplotlib is imported only if something is drawn, and never in
     this process while other processes draw."""
 
     def __init__(self, specs: Mapping[str, object], digests: Mapping[str, str],
-                 cache: ChartCache | None, jobs: int) -> None:
+                 cache: ChartCache | None, jobs: int, done: set[str] | frozenset = frozenset(),
+                 rejected: int = 0) -> None:
+        """``done``: charts already taken from the cache and put into the site by the render
+        workers; ``rejected``: the cache entries they found corrupt (those charts are
+        missing from the cache now, so they are drawn)."""
         self._specs, self._cache, self._jobs = specs, cache, jobs
+        self._rejected = rejected
         self._renderer = _renderer_name()
         self._keys = {path: cache_key(digests[path], self._renderer) for path in sorted(digests)}
         self.sources: dict[str, str] = {}  # chart path -> cache entry holding its bytes
@@ -203,10 +209,11 @@ class ChartDrawing:
         self._cached: dict[str, bytes] = {}
         self.file_sha256: dict[str, str] = {}  # chart path -> sha256 of a cached entry
         self._drawn = 0
-        missing = [path for path, key in self._keys.items()
-                   if cache is None or not os.path.exists(cache.entry_name(key))]
+        missing = [path for path, key in self._keys.items() if path not in done
+                   and (cache is None or not os.path.exists(cache.entry_name(key)))]
         self._draw(missing)
-        self._to_read = [path for path in self._keys if path not in set(missing)]
+        skip = set(missing) | done
+        self._to_read = [path for path in self._keys if path not in skip]
 
     def _draw(self, paths: list[str]) -> None:
         if not paths:
@@ -265,7 +272,7 @@ class ChartDrawing:
             pending.cancel()
 
     def stats(self) -> ChartStats:
-        rejected = self._cache.rejected if self._cache is not None else 0
+        rejected = self._rejected + (self._cache.rejected if self._cache is not None else 0)
         total = len(self._keys)
         return ChartStats(total=total, drawn=self._drawn, cached=total - self._drawn,
                           rejected=rejected)
@@ -474,6 +481,11 @@ class ItemBatch:
     # Files a worker put into the new tree itself (output.Staging.place), their bytes left
     # out of ``files``: (site path, kept from the previous site, [size, mtime, inode]).
     placed: list = field(default_factory=list)
+    # Of those, the charts taken from the chart cache (their entries read and checked by
+    # the worker); and the charts whose cache entries it found corrupt (removed, so they
+    # are drawn again).
+    charts_placed: list = field(default_factory=list)
+    charts_rejected: list = field(default_factory=list)
 
 
 def render_items(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
@@ -546,10 +558,10 @@ def handbook_batch(computed: Computed, findings: Sequence[Finding], meta: pages.
 def _render_task(shared: tuple, task: str | Sequence[str] | None) -> tuple[ItemBatch, int]:
     """One task of render_site: a share of the handbook pages, or some items' sheets, put
     into the new tree when a staging is shared."""
-    computed, findings, meta, results, staging = shared
+    computed, findings, meta, results, staging, cache = shared
     if task is None or isinstance(task, str):  # None: every handbook page
         done = handbook_batch(computed, findings, meta, task, compiled_templates(results))
-        return _placed(done, staging), 0
+        return _placed(done, staging, cache), 0
     by_item = _by_item(findings)
     digester = digester_for(computed.handbook)
     merged = _no_batch()
@@ -560,18 +572,52 @@ def _render_task(shared: tuple, task: str | Sequence[str] | None) -> tuple[ItemB
                                         meta, results, digester)
             rendered += fresh
             _merge(merged, batch)
-    return _placed(merged, staging), rendered
+    return _placed(merged, staging, cache), rendered
 
 
-def _placed(batch: ItemBatch, staging: output.Staging | None) -> ItemBatch:
-    """``batch`` with its files put into ``staging``'s new tree, their bytes dropped."""
+def _placed(batch: ItemBatch, staging: output.Staging | None,
+            cache: ChartCache | None = None) -> ItemBatch:
+    """``batch`` with its files put into ``staging``'s new tree, their bytes dropped, and
+    with ``cache``, its charts that the cache holds, each entry read and checked here (the
+    parent draws the rest)."""
     if staging is None:
         return batch
     try:
         placed = staging.place(batch.files)
+        charts: list = []
+        rejected: list = []
+        sha = dict(batch.file_sha256)
+        if cache is not None:
+            charts = _place_cached(batch.digests, cache, staging, sha, rejected)
     except OSError as exc:
         raise _CannotWrite(str(exc)) from exc
-    return replace(batch, files={}, placed=placed)
+    return replace(batch, files={}, placed=placed + charts, file_sha256=sha,
+                   charts_placed=[rel for rel, _kept, _state in charts],
+                   charts_rejected=rejected)
+
+
+def _place_cached(digests: Mapping[str, str], cache: ChartCache, staging: output.Staging,
+                  sha256: dict[str, str], rejected: list[str]) -> list:
+    """Put each chart of ``digests`` whose cache entry passes its checks into the new tree
+    (hard-linked from the entry where it can be; another worker may put the same chart, see
+    Staging.place's ``shared``); the placements, with each one's sha256 added to
+    ``sha256`` and the charts whose entries failed their checks to ``rejected``."""
+    renderer = _renderer_name()
+    out: list = []
+    for path in sorted(digests):
+        key = cache_key(digests[path], renderer)
+        before = cache.rejected
+        found = cache.get_checked(key)
+        if found is None:
+            if cache.rejected != before:
+                rejected.append(path)
+            continue
+        data, whole = found
+        done = staging.place({path: data}, {path: cache.entry_name(key)}, shared=True)
+        if done:
+            out += done
+            sha256[path] = whole
+    return out
 
 
 def _no_batch() -> ItemBatch:
@@ -580,6 +626,8 @@ def _no_batch() -> ItemBatch:
 
 def _merge(into: ItemBatch, b: ItemBatch) -> None:
     into.placed.extend(b.placed)
+    into.charts_placed.extend(b.charts_placed)
+    into.charts_rejected.extend(b.charts_rejected)
     into.file_sha256.update(b.file_sha256)
     into.files.update(b.files)
     into.page_paths.extend(b.page_paths)
@@ -590,21 +638,22 @@ def _merge(into: ItemBatch, b: ItemBatch) -> None:
 
 def render_site(computed: Computed, findings: Sequence[Finding], meta: pages.SiteMeta,
                 jobs: int, results: ResultsCache | None = None,
-                staging: output.Staging | None = None
+                staging: output.Staging | None = None, cache: ChartCache | None = None
                 ) -> tuple[ItemBatch, ItemBatch, int]:
     """Every page: (the sheets (render_sheet), the handbook pages, sheets rendered now rather
     than taken from ``results``).  With at least parallel.MIN_ITEMS items the work is split
     over ``jobs`` forked workers (generator.parallel): the handbook pages as four tasks
     (pages.HANDBOOK_PARTS), the sheets as parallel.CHUNKS_PER_JOB × ``jobs`` more.  With an
     open ``staging`` each task puts its files into the new tree itself (the batches then
-    hold where they went instead of their bytes)."""
+    hold where they went instead of their bytes), and with ``cache`` too the charts of its
+    pages that the cache holds (ItemBatch.charts_placed)."""
     # many small chunks, so no worker idles long at the end while another finishes
     chunks = parallel.split(pages.item_keys(computed), jobs)
     n = len(chunks)
     whole: list = list(pages.HANDBOOK_PARTS) if n > 1 else [None]
     tasks: list = whole + [tuple(chunk) for chunk in chunks]
     parts = parallel.fork_map(_render_task, tasks, jobs if n > 1 else 1,
-                              (computed, findings, meta, results, staging), 2)
+                              (computed, findings, meta, results, staging, cache), 2)
     handbook, sheets = _no_batch(), _no_batch()
     for i, (batch, _n) in enumerate(parts):
         _merge(handbook if i < len(whole) else sheets, batch)
@@ -681,16 +730,24 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
         # The workers put the pages and exports they render into the new tree themselves.
         staging = _writing(output.Staging, out)
         _writing(staging.open)
-        items, whole, rendered = render_site(computed, every, meta, jobs, results, staging)
-        placed = whole.placed + items.placed
+        items, whole, rendered = render_site(computed, every, meta, jobs, results, staging,
+                                             cache)
+        # One placement per path: a chart two workers met is reported by the one that put
+        # it, and a copy made where linking failed is the same bytes.
+        first: dict[str, tuple] = {}
+        for placement in whole.placed + items.placed:
+            first.setdefault(placement[0], placement)
+        placed = list(first.values())
         _writing(staging.placed, placed)
         sizes = {rel: state[0] for rel, _kept, state in placed}
         specs = {**whole.specs, **items.specs}
         digests = {**whole.digests, **items.digests}
         page_paths = sorted(whole.page_paths + items.page_paths)
-        # The missing charts are drawn by other processes while this one exports, checks
-        # the cached charts and writes everything else into the new tree.
-        drawing = ChartDrawing(specs, digests, cache, jobs)
+        # The workers put the charts the cache holds; the missing ones are drawn by other
+        # processes while this one exports and writes everything else into the new tree.
+        drawing = ChartDrawing(specs, digests, cache, jobs,
+                               done=set(whole.charts_placed + items.charts_placed),
+                               rejected=len(set(whole.charts_rejected + items.charts_rejected)))
         files = dict(whole.files)
         files.update(items.files)
         files.update(handbook_exports(computed, items.texts))
