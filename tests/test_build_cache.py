@@ -196,6 +196,35 @@ def test_corrupt_cache_entry_is_redrawn_not_published(tmp_path, recorder, capsys
     assert entry.read_bytes() == good  # the redrawn chart replaced the bad entry
 
 
+def test_render_workers_take_cached_charts_and_report_corrupt_ones(tmp_path, recorder, capsys,
+                                                                   monkeypatch):
+    """With the sheets rendered by forked workers, each worker reads, checks and places the
+    cached charts of its pages; the entries it finds corrupt are counted in the summary,
+    drawn again by the parent and published good."""
+    from generator import parallel
+
+    src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
+    charts, *_ = build(src, out, cache, capsys)
+    entries = sorted(cache.rglob("*.svg"))
+    good = {e: e.read_bytes() for e in entries[:2]}
+    for entry, data in good.items():
+        entry.write_bytes(data[: len(data) // 2])
+    monkeypatch.setattr(parallel, "MIN_ITEMS", 2)  # the small handbook's sheets forked too
+    recorder.drawn.clear()
+    fresh = tmp_path / "fresh"
+    capsys.readouterr()
+    assert main(["build", str(src), "-o", str(fresh), "--cache", str(cache), "-j", "2"]) == 0
+    err = capsys.readouterr().err
+    assert f"{charts} charts (2 drawn, {charts - 2} cached, 2 bad cache entries redrawn)" in err
+    assert len(recorder.drawn) == 2
+    published = {p.read_bytes() for p in (fresh / "charts").glob("*.svg")}
+    assert set(good.values()) <= published
+    assert all(e.read_bytes() == data for e, data in good.items())
+    # Every other chart is the cache entry itself, linked by the worker that placed it.
+    linked = [p for p in (fresh / "charts").glob("*.svg") if p.stat().st_nlink > 1]
+    assert len(linked) >= charts - 2
+
+
 def test_cache_get_put_round_trip(tmp_path):
     cache = ChartCache(tmp_path)
     key = "ab" * 32

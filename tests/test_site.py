@@ -11,6 +11,7 @@ from __future__ import annotations
 import hashlib
 import importlib
 import json
+import os
 import re
 from html.parser import HTMLParser
 from pathlib import Path
@@ -389,6 +390,34 @@ def test_files_placed_by_a_forked_process_are_part_of_the_site(tmp_path: Path) -
     staging.placed(staging.place(new))
     assert not staging.commit().swapped
     assert sorted(p.name for p in tmp_path.iterdir()) == ["once", "out"]
+
+
+def test_shared_placement_creates_each_path_once(tmp_path: Path) -> None:
+    """Paths several workers may place (content-addressed charts) are created exclusively:
+    the second placement of a path changes nothing and is left out of its result, so the
+    committing process claims each file once; linked from a source when one is given."""
+    out = tmp_path / "out"
+    entry = tmp_path / "entry.svg"
+    entry.write_bytes(b"<svg>1</svg>")
+    os.chmod(entry, 0o666 & ~_umask())
+    staging = output.Staging(out)
+    staging.open()
+    first = staging.place({"charts/a.svg": b"<svg>1</svg>"}, {"charts/a.svg": str(entry)},
+                          shared=True)
+    again = staging.place({"charts/a.svg": b"<svg>X</svg>", "charts/b.svg": b"<svg>2</svg>"},
+                          shared=True)
+    assert [rel for rel, _kept, _state in first] == ["charts/a.svg"]
+    assert [rel for rel, _kept, _state in again] == ["charts/b.svg"]
+    staging.placed(first + again)
+    staging.commit()
+    assert (out / "charts" / "a.svg").read_bytes() == b"<svg>1</svg>"
+    assert (out / "charts" / "a.svg").stat().st_ino == entry.stat().st_ino
+
+
+def _umask() -> int:
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
 
 
 def test_staging_touches_nothing_until_a_file_differs(tmp_path: Path) -> None:

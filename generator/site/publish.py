@@ -591,9 +591,11 @@ def _placed(batch: ItemBatch, staging: output.Staging | None,
             charts = _place_cached(batch.digests, cache, staging, sha, rejected)
     except OSError as exc:
         raise _CannotWrite(str(exc)) from exc
-    return replace(batch, files={}, placed=placed + charts, file_sha256=sha,
-                   charts_placed=[rel for rel, _kept, _state in charts],
-                   charts_rejected=rejected)
+    done = [rel for rel, _kept, _state in charts]
+    taken = set(done)  # the parent needs a chart's spec only to draw it
+    specs = {path: spec for path, spec in batch.specs.items() if path not in taken}
+    return replace(batch, files={}, placed=placed + charts, file_sha256=sha, specs=specs,
+                   charts_placed=done, charts_rejected=rejected)
 
 
 def _place_cached(digests: Mapping[str, str], cache: ChartCache, staging: output.Staging,
