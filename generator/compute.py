@@ -34,6 +34,7 @@ from generator.thermo.species_props import (
     SpeciesFunctions,
     formation_coefficients,
     formation_functions,
+    prepare_plans,
     remember_functions,
     species_functions,
 )
@@ -209,7 +210,8 @@ def _species_curves(species: Mapping[str, Species], element_refs: Mapping[str, S
     digests = {sid: digester.parts("species", sp, refs[sid], grid, tolerances)
                if results is not None else "" for sid, sp in species.items()}
     made = kept_or_made(results, "species", digests, tuple, _species_made,
-                        (species, refs, grid, tolerances), jobs)
+                        (species, refs, grid, tolerances), jobs,
+                        lambda todo: prepare_plans(species[sid] for sid in todo))
     for sid, parts in made.items():
         if results is not None:
             for i, part in enumerate(parts):

@@ -318,11 +318,12 @@ def write_atomically(path: str, chunks, mode: int = 0o600) -> None:
 
 def kept_or_made(results: ResultStore | None, kind: str, digests: Mapping[str, str],
                  result_type: type, make_one: Callable[[Any, str], Any], shared: Any,
-                 jobs: int = 1) -> dict:
+                 jobs: int = 1, prepare: Callable[[list[str]], None] | None = None) -> dict:
     """Each item's result (items: the keys of ``digests``, in order): from ``results`` when
     an entry of ``result_type`` is kept under the item's digest, else ``make_one(shared,
     item)``, made by ``jobs`` forked processes (generator.parallel.fork_map), each storing
-    what it made back into ``results``."""
+    what it made back into ``results``.  ``prepare(items to make)`` runs here first, when
+    there are any: what it warms, every worker inherits instead of making it again."""
     from generator.parallel import fork_map, split
 
     done: dict = {}
@@ -332,6 +333,8 @@ def kept_or_made(results: ResultStore | None, kind: str, digests: Mapping[str, s
             item: results.get(kind, item, digest) for item, digest in digests.items()}
         done = {item: hit for item, hit in found.items() if isinstance(hit, result_type)}
     todo = [item for item in digests if item not in done]
+    if todo and prepare is not None:
+        prepare(todo)
 
     def make_and_keep(shared_: Any, chunk: list[str]) -> list:
         with batched(results):  # a chunk's entries in one transaction

@@ -162,7 +162,7 @@ class _Plan:
     pieces: tuple[CpPiece, ...]
     switches: np.ndarray
     models: tuple[tuple, ...]
-    h_offset: tuple[float, ...]
+    h_offset: tuple[float, ...]  # for _piecewise: empty when ``poly`` is given
     s_offset: tuple[float, ...]
     covered: tuple[float, float]
     poly: np.ndarray | None = None  # (pieces, 7) Cp coefficients on POWERS, J/(mol K)
@@ -249,11 +249,16 @@ def _poly_s(s: np.ndarray, T: np.ndarray, out: np.ndarray, neg: bool = True) -> 
     return out
 
 
-def _poly_anti(fn, index: int):
+def _poly_anti(fn, forms: np.ndarray, pieces: Sequence[CpPiece]):
+    """The antiderivative ``fn`` (_poly_h or _poly_s) of each of ``pieces`` at one T, from
+    their rows of ``forms`` (poly_forms of the stacked coefficients: elementwise, so each
+    row is what the piece's own coefficients give)."""
+    row = {id(p): i for i, p in enumerate(pieces)}
+
     def anti(piece: CpPiece, T) -> float:
-        forms = poly_forms(poly_coefficients(piece)[None, :])
+        i = row[id(piece)]
         T1 = np.atleast_1d(float(T))
-        return float(fn(forms[index], T1, np.empty((1, 1)))[0, 0])
+        return float(fn(forms[i:i + 1], T1, np.empty((1, 1)))[0, 0])
     return anti
 
 
@@ -266,12 +271,18 @@ def _make_plan(cp: tuple[CpPiece, ...]) -> _Plan:
         poly = np.stack(polys)
         h_form, s_form = poly_forms(poly)
         coef = np.stack([poly, h_form, s_form], axis=1)
-        offset = np.stack([_offsets(pieces, switches, _poly_anti(_poly_h, 0)),
-                           _offsets(pieces, switches, _poly_anti(_poly_s, 1))], axis=1)
+        offset = np.stack([_offsets(pieces, switches, _poly_anti(_poly_h, h_form, pieces)),
+                           _offsets(pieces, switches, _poly_anti(_poly_s, s_form, pieces))],
+                          axis=1)
+    # The per-piece offsets of _piecewise, which only a plan without the polynomial form
+    # uses (a table piece); the polynomial plans carry theirs in ``offset``.
+    h_offset = s_offset = ()
+    if poly is None:
+        h_offset = tuple(_offsets(pieces, switches, cp_models.h_antiderivative))
+        s_offset = tuple(_offsets(pieces, switches, cp_models.s_antiderivative))
     return _Plan(
         pieces=tuple(pieces), switches=switches, models=models,
-        h_offset=tuple(_offsets(pieces, switches, cp_models.h_antiderivative)),
-        s_offset=tuple(_offsets(pieces, switches, cp_models.s_antiderivative)),
+        h_offset=h_offset, s_offset=s_offset,
         covered=(min(p.Tmin for p in pieces), max(p.Tmax for p in pieces)),
         poly=poly, coef=coef, offset=offset,
         negative_powers=poly is not None and bool(np.any(poly[:, :2])),
@@ -299,6 +310,14 @@ def _plan(cp) -> _Plan:
         _PLAN_OF.clear()
     _PLAN_OF[id(cp)] = (cp, plan)  # holding cp keeps its id from being reused
     return plan
+
+
+def prepare_plans(species: Iterable[Species]) -> None:
+    """Make the evaluation plan of each species now (they are remembered per Cp tuple), so
+    processes forked after this inherit them instead of each making its own."""
+    for sp in species:
+        if sp.cp:
+            _plan(sp.cp)
 
 
 def _piecewise(plan: _Plan, T: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
