@@ -80,7 +80,8 @@ def fork_map(fn: Callable[[Any, Any], Any], items: Sequence, jobs: int, shared: 
     gc.freeze()
     try:
         with multiprocessing.get_context("fork").Pool(jobs) as pool:
-            parts = pool.map(_run_chunk, chunks)
+            # one chunk per dispatch: a worker that finishes early takes the next one
+            parts = pool.map(_run_chunk, chunks, chunksize=1)
     finally:
         _TASK = None
         gc.unfreeze()
