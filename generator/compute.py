@@ -168,10 +168,14 @@ def _reaction_result(shared: tuple[Handbook, np.ndarray], rid: str) -> ReactionR
         parts = [(s.factor, reaction_functions(hb.reactions[s.reaction].stoichiometry,
                                                hb.species, grid)) for s in rx.combine]
         hess_total = hess_sum(parts)
-    at298 = reaction_functions(nu, hb.species, [T_REF])
+    # at 298.15 K: the grid's own point when it has one (the same elementwise operations
+    # give the same numbers at one temperature or many)
+    at = np.flatnonzero(grid == T_REF)
+    k, at298 = (int(at[0]), on_grid) if at.size else (0, reaction_functions(nu, hb.species,
+                                                                             [T_REF]))
     return ReactionResult(
         reaction=rx, nu=nu, grid=on_grid, curve=curve, crossover_T=crossings,
-        character=character(float(at298.drH[0]), float(at298.drS[0]), float(at298.drG[0])),
+        character=character(float(at298.drH[k]), float(at298.drS[k]), float(at298.drG[k])),
         steps=tuple((s.factor, s.reaction) for s in rx.combine),
         hess_total=hess_total,
         checks=(),
