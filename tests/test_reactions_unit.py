@@ -286,3 +286,27 @@ def test_covered_range():
     assert reaction_functions({"Q": -1.0, "W": 1.0}, species, [T0]).covered == (300.0, 1000.0)
     assert reaction_functions({"Q": -1.0, "N": 1.0}, species, [T0]).covered is None
     assert reaction_functions({"Q": -1.0, "Z": 1.0}, species, [T0]).covered is None
+
+
+def test_character_at_298_is_the_same_with_or_without_the_grid_point():
+    """compute reads the 298.15 K character from the grid when the grid holds 298.15 K; a
+    handbook whose grid lacks it evaluates 298.15 K on its own: the words are the same, and
+    the grid's numbers at 298.15 K are bit for bit those of a one-point evaluation."""
+    from dataclasses import replace
+    from pathlib import Path
+
+    from generator.compute import compute_handbook
+    from generator.load import load_handbook
+    from generator.thermo.constants import T_REF
+
+    hb, _ = load_handbook(Path(__file__).resolve().parent.parent / "sources")
+    assert hb is not None and T_REF in hb.settings.temperatures
+    with_point = compute_handbook(hb)
+    grid = tuple(t for t in hb.settings.temperatures if t != T_REF)
+    without = compute_handbook(replace(hb, settings=replace(hb.settings, temperatures=grid)))
+    for rid, rr in with_point.reactions.items():
+        assert rr.character == without.reactions[rid].character
+        one = reaction_functions(rr.nu, with_point.handbook.species, [T_REF])
+        k = list(rr.grid.T).index(T_REF)
+        assert (rr.grid.drH[k], rr.grid.drS[k], rr.grid.drG[k]) == (
+            one.drH[0], one.drS[0], one.drG[0])
