@@ -413,9 +413,15 @@ def item_exports(computed: Computed, findings: Sequence[Finding], keys: Sequence
         else:
             doc, folder, columns = reaction_doc(computed, item, own), "reactions", REACTION_CSV
         texts[key] = _json_text(doc)
-        files[f"{folder}/{item}.json"] = (texts[key] + "\n").encode("utf-8")
+        files[export_path(key)] = (texts[key] + "\n").encode("utf-8")
         files[f"{folder}/{item}.csv"] = csv_table(doc["rows"], columns).encode("utf-8")
     return files, texts
+
+
+def export_path(key: str) -> str:
+    """The site path of an item's JSON file (species:<id> or reaction:<id>)."""
+    kind, _, item = key.partition(":")
+    return f"{'species' if kind == 'species' else 'reactions'}/{item}.json"
 
 
 def handbook_exports(computed: Computed, texts: Mapping[str, str]) -> dict[str, bytes]:
@@ -469,8 +475,9 @@ class ItemBatch:
     """What rendering some items' sheets gave: files by path, the sheets' paths, the charts
     they show (specs and digests by chart path), each item's JSON text and each file's
     sha256 for the manifest (made where the files were rendered, and kept with them).  A
-    sheet from the results cache holds each spec pickled (bytes), unpickled only if its
-    chart must be drawn (chart_spec)."""
+    sheet kept in the results cache holds each spec pickled (bytes), unpickled only if its
+    chart must be drawn (chart_spec), and no JSON text (render_sheet takes it from the
+    JSON file)."""
 
     files: dict[str, bytes]
     page_paths: list[str]
@@ -534,10 +541,12 @@ def render_sheet(computed: Computed, key: str, findings: Sequence[Finding],
             view, "sheet", key, tuple(findings), own_meta)
         hit = results.get("sheet", key, digest)
         if isinstance(hit, ItemBatch):
-            return hit, False
+            # the item's JSON text is its JSON file less the final newline (not kept twice)
+            text = hit.files[export_path(key)].decode("utf-8")[:-1]
+            return replace(hit, texts={key: text}), False
     batch = render_items(view, findings, own_meta, [key], compiled_templates(results))
     if results is not None and digest is not None:
-        results.put("sheet", key, digest, replace(batch, specs={
+        results.put("sheet", key, digest, replace(batch, texts={}, specs={
             path: pickle.dumps(spec, protocol=5) for path, spec in batch.specs.items()}))
     return batch, True
 
