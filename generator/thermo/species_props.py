@@ -249,16 +249,19 @@ def _poly_s(s: np.ndarray, T: np.ndarray, out: np.ndarray, neg: bool = True) -> 
     return out
 
 
-def _poly_anti(fn, forms: np.ndarray, pieces: Sequence[CpPiece]):
-    """The antiderivative ``fn`` (_poly_h or _poly_s) of each of ``pieces`` at one T, from
-    their rows of ``forms`` (poly_forms of the stacked coefficients: elementwise, so each
-    row is what the piece's own coefficients give)."""
+def _poly_anti(fn, forms: np.ndarray, pieces: Sequence[CpPiece], switches: np.ndarray):
+    """The antiderivative ``fn`` (_poly_h or _poly_s) of each of ``pieces`` at 298.15 K and
+    at the switch temperatures, as _offsets asks for it: every piece at every one of those
+    temperatures in one evaluation (``forms``: poly_forms of the stacked coefficients).  The
+    operations are elementwise, so each value is the one a single piece at a single
+    temperature gives."""
+    points = np.concatenate([[T_REF], switches]).astype(float)
+    table = fn(forms, points, np.empty((len(pieces), points.size)))
     row = {id(p): i for i, p in enumerate(pieces)}
+    col = {float(t): j for j, t in reversed(list(enumerate(points.tolist())))}
 
     def anti(piece: CpPiece, T) -> float:
-        i = row[id(piece)]
-        T1 = np.atleast_1d(float(T))
-        return float(fn(forms[i:i + 1], T1, np.empty((1, 1)))[0, 0])
+        return float(table[row[id(piece)], col[float(T)]])
     return anti
 
 
@@ -271,9 +274,10 @@ def _make_plan(cp: tuple[CpPiece, ...]) -> _Plan:
         poly = np.stack(polys)
         h_form, s_form = poly_forms(poly)
         coef = np.stack([poly, h_form, s_form], axis=1)
-        offset = np.stack([_offsets(pieces, switches, _poly_anti(_poly_h, h_form, pieces)),
-                           _offsets(pieces, switches, _poly_anti(_poly_s, s_form, pieces))],
-                          axis=1)
+        offset = np.stack([_offsets(pieces, switches,
+                                    _poly_anti(_poly_h, h_form, pieces, switches)),
+                           _offsets(pieces, switches,
+                                    _poly_anti(_poly_s, s_form, pieces, switches))], axis=1)
     # The per-piece offsets of _piecewise, which only a plan without the polynomial form
     # uses (a table piece); the polynomial plans carry theirs in ``offset``.
     h_offset = s_offset = ()
