@@ -190,9 +190,8 @@ class ChartDrawing:
     this is made, once, in a pool of ``jobs`` processes that works while the caller goes on
     (generator.charts.start_many); ``read_cached`` then reads and checks the cache's entries
     the render workers did not take already (one that fails its checks is drawn as well)
-    and ``finish`` waits for the drawn charts
-    and stores them back.  matplotlib is imported only if something is drawn, and never in
-    this process while other processes draw."""
+    and ``finish`` waits for the drawn charts and stores them back.  matplotlib is imported
+    only if something is drawn, and never in this process while other processes draw."""
 
     def __init__(self, specs: Mapping[str, object], digests: Mapping[str, str],
                  cache: ChartCache | None, jobs: int, done: set[str] | frozenset = frozenset(),
