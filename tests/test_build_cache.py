@@ -196,11 +196,12 @@ def test_corrupt_cache_entry_is_redrawn_not_published(tmp_path, recorder, capsys
     assert entry.read_bytes() == good  # the redrawn chart replaced the bad entry
 
 
+@pytest.mark.parametrize("jobs", ["1", "2"])
 def test_render_workers_take_cached_charts_and_report_corrupt_ones(tmp_path, recorder, capsys,
-                                                                   monkeypatch):
-    """With the sheets rendered by forked workers, each worker reads, checks and places the
-    cached charts of its pages; the entries it finds corrupt are counted in the summary,
-    drawn again by the parent and published good."""
+                                                                   monkeypatch, jobs):
+    """Whoever renders the sheets (this process, or forked workers) reads, checks and
+    places the cached charts of its pages; the entries found corrupt are counted once in
+    the summary, drawn again by the parent and published good."""
     from generator import parallel
 
     src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
@@ -213,7 +214,7 @@ def test_render_workers_take_cached_charts_and_report_corrupt_ones(tmp_path, rec
     recorder.drawn.clear()
     fresh = tmp_path / "fresh"
     capsys.readouterr()
-    assert main(["build", str(src), "-o", str(fresh), "--cache", str(cache), "-j", "2"]) == 0
+    assert main(["build", str(src), "-o", str(fresh), "--cache", str(cache), "-j", jobs]) == 0
     err = capsys.readouterr().err
     assert f"{charts} charts (2 drawn, {charts - 2} cached, 2 bad cache entries redrawn)" in err
     assert len(recorder.drawn) == 2

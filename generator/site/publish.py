@@ -17,7 +17,6 @@ import subprocess
 import sys
 import time
 from collections.abc import Mapping, Sequence
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 from datetime import datetime, timezone
 from pathlib import Path
@@ -186,33 +185,27 @@ def _renderer_name() -> str:
 
 
 class ChartDrawing:
-    """The charts of one build: the charts the cache has no entry for start drawing when
-    this is made, once, in a pool of ``jobs`` processes that works while the caller goes on
-    (generator.charts.start_many); ``read_cached`` then reads and checks the cache's entries
-    the render workers did not take already (one that fails its checks is drawn as well)
-    and ``finish`` waits for the drawn charts and stores them back.  matplotlib is imported
-    only if something is drawn, and never in this process while other processes draw."""
+    """The charts of one build that the render workers did not take from the cache (no
+    entry, or one that failed its checks there): they start drawing when this is made,
+    once, in a pool of ``jobs`` processes that works while the caller goes on
+    (generator.charts.start_many), and ``finish`` waits for them and stores them back.
+    matplotlib is imported only if something is drawn, and never in this process while
+    other processes draw."""
 
     def __init__(self, specs: Mapping[str, object], digests: Mapping[str, str],
                  cache: ChartCache | None, jobs: int, done: set[str] | frozenset = frozenset(),
                  rejected: int = 0) -> None:
         """``done``: charts already taken from the cache and put into the site by the render
-        workers; ``rejected``: the cache entries they found corrupt (those charts are
-        missing from the cache now, so they are drawn)."""
+        workers (every other chart is drawn); ``rejected``: the cache entries they found
+        corrupt (removed, so those charts are among the drawn)."""
         self._specs, self._cache, self._jobs = specs, cache, jobs
         self._rejected = rejected
         self._renderer = _renderer_name()
         self._keys = {path: cache_key(digests[path], self._renderer) for path in sorted(digests)}
         self.sources: dict[str, str] = {}  # chart path -> cache entry holding its bytes
         self._parts: list[tuple[list[str], object]] = []  # (chart paths, their drawing)
-        self._cached: dict[str, bytes] = {}
-        self.file_sha256: dict[str, str] = {}  # chart path -> sha256 of a cached entry
         self._drawn = 0
-        missing = [path for path, key in self._keys.items() if path not in done
-                   and (cache is None or not os.path.exists(cache.entry_name(key)))]
-        self._draw(missing)
-        skip = set(missing) | done
-        self._to_read = [path for path in self._keys if path not in skip]
+        self._draw([path for path in self._keys if path not in done])
 
     def _draw(self, paths: list[str]) -> None:
         if not paths:
@@ -226,22 +219,6 @@ class ChartDrawing:
 
             self._parts.append((paths, start_many(todo, self._jobs)))
         self._drawn += len(paths)
-
-    def read_cached(self) -> dict[str, bytes]:
-        """The charts the cache holds, each entry read and checked; the bytes of one failing
-        its checks start drawing."""
-        bad = []
-        for path in self._to_read:
-            key = self._keys[path]
-            found = self._cache.get_checked(key) if self._cache is not None else None
-            if found is None:
-                bad.append(path)
-            else:
-                self._cached[path], self.file_sha256[path] = found
-                self.sources[path] = self._cache.entry_name(key)  # type: ignore[union-attr]
-        self._to_read = []
-        self._draw(bad)
-        return dict(self._cached)
 
     def finish(self, quiet: bool = False, start: float | None = None) -> dict[str, bytes]:
         """The drawn charts' published bytes, waited for, each stored in the cache."""
@@ -271,10 +248,9 @@ class ChartDrawing:
             pending.cancel()
 
     def stats(self) -> ChartStats:
-        rejected = self._rejected + (self._cache.rejected if self._cache is not None else 0)
         total = len(self._keys)
         return ChartStats(total=total, drawn=self._drawn, cached=total - self._drawn,
-                          rejected=rejected)
+                          rejected=self._rejected)
 
 
 class _Drawn:
@@ -762,15 +738,8 @@ def publish(handbook: Handbook, findings: Sequence[Finding], out_path: Path, arg
         files.update(items.files)
         files.update(handbook_exports(computed, items.texts))
         files.update(assets.static_assets())
-        # The cached charts are read and checked by a thread (reading and hashing release
-        # the interpreter lock) while this one writes the pages into the new tree.
-        with ThreadPoolExecutor(1, thread_name_prefix="thermofolio-chart-reader") as reader:
-            cached_charts = reader.submit(drawing.read_cached)
-            _writing(staging.add, files)
-            charts = cached_charts.result()
-        _writing(staging.add, charts, drawing.sources)
-        files.update(charts)
-        hashed = {**whole.file_sha256, **items.file_sha256, **drawing.file_sha256}
+        _writing(staging.add, files)
+        hashed = {**whole.file_sha256, **items.file_sha256}
         hashed.update(file_digests({p: d for p, d in files.items() if p not in hashed}))
         drawn = drawing.finish(quiet=quiet, start=start_time)
         _writing(staging.add, drawn, drawing.sources)
