@@ -70,6 +70,12 @@ def rename(a, b, *args, **kwargs):
 
 output = importlib.import_module("generator.site.output")
 real_exchange = output._exchange
+real_write_file = output._write_file
+
+def write_file(target, data, *args, **kwargs):
+    real_write_file(target, data, *args, **kwargs)
+    if os.path.abspath(target).startswith(parent + os.sep):
+        step("write")
 
 def exchange(a, b):
     done = real_exchange(a, b)
@@ -80,6 +86,7 @@ def exchange(a, b):
 pathlib.Path.write_bytes = write_bytes
 os.rename = rename
 output._exchange = exchange
+output._write_file = write_file
 code = main(["build", src, "-o", out, "-q"])
 if stop == "count":
     print(counts["write"], counts["rename"], flush=True)

@@ -270,11 +270,7 @@ class Staging:
             return False  # the folder's first file, written by _folder
         target = self._target(native)
         if not (source is not None and _linked(source, target, data, self._mode, exclusive)):
-            if exclusive:
-                with open(target, "xb") as fh:
-                    fh.write(data)
-            else:
-                Path(target).write_bytes(data)
+            _write_file(target, data, exclusive)
         self._note(rel, target)
         return False
 
@@ -387,6 +383,23 @@ def _new_file_mode() -> int:
         mask = os.umask(0o022)
         os.umask(mask)
     return 0o666 & ~mask
+
+
+_WRITE = os.O_WRONLY | os.O_CREAT | getattr(os, "O_CLOEXEC", 0) | getattr(os, "O_BINARY", 0)
+
+
+def _write_file(target: str, data: bytes, exclusive: bool = False) -> None:
+    """``data`` as the file ``target`` (made with 0o666 less the umask, as ``open`` makes
+    it), by the system calls alone: a site is thousands of small files, and ``open``'s
+    buffered file object cost about as much again as the writing.  ``exclusive``: a
+    ``target`` that exists already raises FileExistsError."""
+    fd = os.open(target, _WRITE | (os.O_EXCL if exclusive else os.O_TRUNC), 0o666)
+    try:
+        view = memoryview(data)
+        while view:
+            view = view[os.write(fd, view):]
+    finally:
+        os.close(fd)
 
 
 def _linked(source: str, target: str, data: bytes, mode: int, exclusive: bool = False
