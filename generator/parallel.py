@@ -48,6 +48,29 @@ def split(items: Sequence, jobs: int) -> list[list]:
     return _interleaved(items, jobs)
 
 
+def guided(items: Sequence, jobs: int, smallest: int = 8) -> list[list]:
+    """``items`` in chunks that shrink as the work runs out, for ``fork_map(...,
+    in_order=True)`` (guided self-scheduling: Polychronopoulos and Kuck, IEEE Transactions
+    on Computers C-36, 1987): each chunk takes 1/(2 x jobs) of what is left, and no fewer than
+    ``smallest``, so the last ones are short and no worker idles long while another
+    finishes.  The items are taken in split's interleaved order, so a chunk mixes kinds that
+    sit together in ``items``.  One chunk (all of them) when they would be worked on in this
+    process, none for none."""
+    items = list(items)
+    if not items:
+        return []
+    if jobs < 2 or len(items) < MIN_ITEMS or not can_fork():
+        return [items]
+    mixed = [x for chunk in _interleaved(items, jobs) for x in chunk]
+    out: list[list] = []
+    start = 0
+    while start < len(mixed):
+        size = max(smallest, -(-(len(mixed) - start) // (2 * jobs)))
+        out.append(mixed[start:start + size])
+        start += size
+    return out
+
+
 def _interleaved(items: list, jobs: int) -> list[list]:
     """CHUNKS_PER_JOB chunks per job (fewer for fewer items), item i in chunk i mod n."""
     n = min(len(items), CHUNKS_PER_JOB * jobs)
@@ -61,16 +84,17 @@ def _run_chunk(items: Sequence) -> list:
 
 
 def fork_map(fn: Callable[[Any, Any], Any], items: Sequence, jobs: int, shared: Any = None,
-             min_items: int | None = None) -> list:
+             min_items: int | None = None, in_order: bool = False) -> list:
     """``[fn(shared, x) for x in items]``; ``min_items`` defaults to MIN_ITEMS, read at each
-    call."""
+    call.  The items go out in interleaved chunks (even loads), or with ``in_order`` one by
+    one in their order (items the caller has sized already, as guided makes them)."""
     global _TASK
     items = list(items)
     if min_items is None:
         min_items = MIN_ITEMS
     if jobs < 2 or len(items) < min_items or not can_fork():
         return [fn(shared, x) for x in items]
-    chunks = _interleaved(items, jobs)  # interleaved: even loads
+    chunks = [[x] for x in items] if in_order else _interleaved(items, jobs)
     n_chunks = len(chunks)
     _TASK = (fn, shared)
     # Everything alive now is moved out of the collector's sight while the workers run

@@ -226,6 +226,43 @@ def test_render_workers_take_cached_charts_and_report_corrupt_ones(tmp_path, rec
     assert len(linked) == charts
 
 
+@pytest.mark.parametrize("jobs", ["1", "2"])
+def test_a_chart_missing_from_the_cache_is_drawn_for_a_kept_sheet(tmp_path, recorder, capsys,
+                                                                  monkeypatch, jobs):
+    """A sheet kept in the results cache holds no chart specs: when one of its charts has
+    no cache entry any more, its spec is made again from the sheet's view, the chart drawn
+    as the first build drew it, and the site comes out the same."""
+    import pickle
+    import sqlite3
+
+    from generator import parallel
+    from generator.results_cache import DATABASE
+
+    src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
+    charts, *_ = build(src, out, cache, capsys)
+    first = {spec.title: spec.to_canonical_json() for spec in recorder.drawn}
+    with sqlite3.connect(cache / DATABASE) as db:
+        sheets = [pickle.loads(p) for (p,) in
+                  db.execute("select payload from entry where kind = 'sheet'")]
+    assert sheets and all(s.specs == {} and s.digests for s in sheets)
+    gone = sorted(cache.rglob("*.svg"))[:3]
+    for entry in gone:
+        entry.unlink()
+    monkeypatch.setattr(parallel, "MIN_ITEMS", 2)  # the small handbook's sheets forked too
+    recorder.drawn.clear()
+    fresh = tmp_path / "fresh"
+    capsys.readouterr()
+    assert main(["build", str(src), "-o", str(fresh), "--cache", str(cache), "-j", jobs]) == 0
+    err = capsys.readouterr().err
+    assert f"{charts} charts (3 drawn, {charts - 3} cached)" in err
+    assert " 0 of " in err  # every sheet was taken from the results cache
+    assert len(recorder.drawn) == 3
+    assert all(first[s.title] == s.to_canonical_json() for s in recorder.drawn)
+    assert all(e.exists() for e in gone)  # stored again
+    assert {p.relative_to(out): p.read_bytes() for p in out.rglob("*") if p.is_file()} == \
+        {p.relative_to(fresh): p.read_bytes() for p in fresh.rglob("*") if p.is_file()}
+
+
 def test_cache_get_put_round_trip(tmp_path):
     cache = ChartCache(tmp_path)
     key = "ab" * 32

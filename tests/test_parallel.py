@@ -24,6 +24,28 @@ def test_results_keep_the_order_of_the_items_whatever_the_split():
     assert {pid for _r, pid in one} == {os.getpid()}
 
 
+def test_in_order_results_keep_the_order_too():
+    items = list(range(23))
+    many = parallel.fork_map(_square_and_pid, items, 3, 3, min_items=2, in_order=True)
+    assert [r for r, _pid in many] == [3 * x * x for x in items]
+
+
+@pytest.mark.skipif(not parallel.can_fork(), reason="the platform does not fork")
+def test_guided_chunks_shrink_and_hold_every_item_once():
+    items = [f"k{i}" for i in range(2004)]
+    chunks = parallel.guided(items, 2)
+    sizes = [len(c) for c in chunks]
+    # each takes a quarter of what is left (2 jobs), the last ones the minimum of 8
+    assert sizes[:3] == [501, 376, 282]
+    assert sizes == sorted(sizes, reverse=True) and max(sizes[-3:]) <= 8
+    assert sorted(x for c in chunks for x in c) == sorted(items)
+    # the long chunks mix the start and the end of the list (kinds that sit together)
+    for chunk in chunks[:6]:
+        assert set(chunk) & set(items[:1000]) and set(chunk) & set(items[1000:])
+    assert parallel.guided(items[:5], 2) == [items[:5]]  # below MIN_ITEMS: one chunk
+    assert parallel.guided([], 2) == []
+
+
 def test_below_the_threshold_everything_stays_in_this_process():
     results = parallel.fork_map(_square_and_pid, [1, 2], 4, 1, min_items=5)
     assert {pid for _r, pid in results} == {os.getpid()}

@@ -12,11 +12,10 @@ from __future__ import annotations
 
 import json
 import os
-import pickle
 import subprocess
 import sys
 import time
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from datetime import datetime, timezone
 from pathlib import Path
@@ -160,11 +159,6 @@ def _plan(entries: Mapping[str, Sequence]):
     return views, specs, digests
 
 
-def chart_spec(spec):
-    """A chart spec, unpickled first when it came from the results cache as bytes."""
-    return pickle.loads(spec) if isinstance(spec, bytes) else spec
-
-
 @dataclass(frozen=True)
 class ChartStats:
     """Charts published, drawn this build, taken from the cache, and cache entries rejected."""
@@ -210,7 +204,7 @@ class ChartDrawing:
     def _draw(self, paths: list[str]) -> None:
         if not paths:
             return
-        todo = [chart_spec(self._specs[p]) for p in paths]
+        todo = [self._specs[p] for p in paths]
         if self._renderer:  # a stand-in renderer takes (specs, jobs) and draws at once
             n_jobs = self._jobs if len(todo) > 2 * self._jobs else 1
             self._parts.append((paths, _Drawn(render_many(todo, n_jobs))))
@@ -450,9 +444,9 @@ class ItemBatch:
     """What rendering some items' sheets gave: files by path, the sheets' paths, the charts
     they show (specs and digests by chart path), each item's JSON text and each file's
     sha256 for the manifest (made where the files were rendered, and kept with them).  A
-    sheet kept in the results cache holds each spec pickled (bytes), unpickled only if its
-    chart must be drawn (chart_spec), and no JSON text (render_sheet takes it from the
-    JSON file)."""
+    sheet kept in the results cache holds no specs (a chart that must be drawn has its spec
+    made again from the item's view: _render_task) and no JSON text (render_sheet takes it
+    from the JSON file)."""
 
     files: dict[str, bytes]
     page_paths: list[str]
@@ -521,8 +515,7 @@ def render_sheet(computed: Computed, key: str, findings: Sequence[Finding],
             return replace(hit, texts={key: text}), False
     batch = render_items(view, findings, own_meta, [key], compiled_templates(results))
     if results is not None and digest is not None:
-        results.put("sheet", key, digest, replace(batch, texts={}, specs={
-            path: pickle.dumps(spec, protocol=5) for path, spec in batch.specs.items()}))
+        results.put("sheet", key, digest, replace(batch, texts={}, specs={}))
     return batch, True
 
 
@@ -550,44 +543,74 @@ def _render_task(shared: tuple, task: str | Sequence[str] | None) -> tuple[ItemB
     digester = digester_for(computed.handbook)
     merged = _no_batch()
     rendered = 0
+    kept: dict[str, str] = {}  # chart path -> a sheet taken from the results cache showing it
     with batched(results):  # the task's sheet entries in one transaction
         for key in task:
             batch, fresh = render_sheet(computed, key, by_item.get(key.partition(":")[2], []),
                                         meta, results, digester)
             rendered += fresh
+            if not fresh:
+                kept.update(dict.fromkeys(batch.digests, key))
             _merge(merged, batch)
-    return _placed(merged, staging, cache), rendered
+
+    def specs_of(paths: Sequence[str]) -> dict[str, object]:
+        """The specs of charts to draw that only kept sheets show, made again from those
+        sheets' views (as render_items made them)."""
+        specs: dict[str, object] = {}
+        for key in dict.fromkeys(kept[p] for p in paths):
+            specs.update(_plan(chart_entries(item_view(computed, key), [key]))[1])
+        return {p: specs[p] for p in paths}
+
+    return _placed(merged, staging, cache, specs_of), rendered
 
 
 def _placed(batch: ItemBatch, staging: output.Staging | None,
-            cache: ChartCache | None = None) -> ItemBatch:
+            cache: ChartCache | None = None,
+            specs_of: Callable[[Sequence[str]], dict[str, object]] | None = None) -> ItemBatch:
     """``batch`` with its files put into ``staging``'s new tree, their bytes dropped, and
     with ``cache``, its charts that the cache holds, each entry read and checked here (the
-    parent draws the rest)."""
+    parent draws the rest, from the specs the batch holds or ``specs_of`` makes)."""
     if staging is None:
-        return batch
+        return _with_specs(batch, list(batch.digests), specs_of)
+    missing: list[str] = []  # charts without a sound cache entry: the parent draws them
     try:
         placed = staging.place(batch.files)
         charts: list = []
         rejected: list = []
         sha = dict(batch.file_sha256)
         if cache is not None:
-            charts = _place_cached(batch.digests, cache, staging, sha, rejected)
+            charts = _place_cached(batch.digests, cache, staging, sha, rejected, missing)
+        else:
+            missing = list(batch.digests)
     except OSError as exc:
         raise _CannotWrite(str(exc)) from exc
     done = [rel for rel, _kept, _state in charts]
     taken = set(done)  # the parent needs a chart's spec only to draw it
     specs = {path: spec for path, spec in batch.specs.items() if path not in taken}
-    return replace(batch, files={}, placed=placed + charts, file_sha256=sha, specs=specs,
-                   charts_placed=done, charts_rejected=rejected)
+    return _with_specs(replace(batch, files={}, placed=placed + charts, file_sha256=sha,
+                               specs=specs, charts_placed=done, charts_rejected=rejected),
+                       missing, specs_of)
+
+
+def _with_specs(batch: ItemBatch, paths: Sequence[str],
+                specs_of: Callable[[Sequence[str]], dict[str, object]] | None) -> ItemBatch:
+    """``batch`` holding the spec of each chart of ``paths`` (those it lacks by
+    ``specs_of``)."""
+    lacking = [p for p in paths if p not in batch.specs]
+    if not lacking:
+        return batch
+    if specs_of is None:
+        raise ValueError(f"no spec for the charts {lacking[:3]}")
+    return replace(batch, specs={**batch.specs, **specs_of(lacking)})
 
 
 def _place_cached(digests: Mapping[str, str], cache: ChartCache, staging: output.Staging,
-                  sha256: dict[str, str], rejected: list[str]) -> list:
+                  sha256: dict[str, str], rejected: list[str], missing: list[str]) -> list:
     """Put each chart of ``digests`` whose cache entry passes its checks into the new tree
     (hard-linked from the entry where it can be; another worker may put the same chart, see
     Staging.place's ``shared``); the placements, with each one's sha256 added to
-    ``sha256`` and the charts whose entries failed their checks to ``rejected``."""
+    ``sha256``, the charts whose entries failed their checks to ``rejected``, and those and
+    the charts without an entry to ``missing``."""
     renderer = _renderer_name()
     out: list = []
     for path in sorted(digests):
@@ -597,6 +620,7 @@ def _place_cached(digests: Mapping[str, str], cache: ChartCache, staging: output
         if found is None:
             if cache.rejected != before:
                 rejected.append(path)
+            missing.append(path)
             continue
         data, whole = found
         done = staging.place({path: data}, {path: cache.entry_name(key)}, shared=True)
@@ -629,17 +653,19 @@ def render_site(computed: Computed, findings: Sequence[Finding], meta: pages.Sit
     """Every page: (the sheets (render_sheet), the handbook pages, sheets rendered now rather
     than taken from ``results``).  With at least parallel.MIN_ITEMS items the work is split
     over ``jobs`` forked workers (generator.parallel): the handbook pages as four tasks
-    (pages.HANDBOOK_PARTS), the sheets as parallel.CHUNKS_PER_JOB × ``jobs`` more.  With an
+    (pages.HANDBOOK_PARTS), then the sheets in chunks that shrink towards the end
+    (parallel.guided), handed out in that order.  With an
     open ``staging`` each task puts its files into the new tree itself (the batches then
     hold where they went instead of their bytes), and with ``cache`` too the charts of its
     pages that the cache holds (ItemBatch.charts_placed)."""
-    # many small chunks, so no worker idles long at the end while another finishes
-    chunks = parallel.split(pages.item_keys(computed), jobs)
+    # short chunks last, so no worker idles long at the end while another finishes
+    chunks = parallel.guided(pages.item_keys(computed), jobs)
     n = len(chunks)
     whole: list = list(pages.HANDBOOK_PARTS) if n > 1 else [None]
     tasks: list = whole + [tuple(chunk) for chunk in chunks]
     parts = parallel.fork_map(_render_task, tasks, jobs if n > 1 else 1,
-                              (computed, findings, meta, results, staging, cache), 2)
+                              (computed, findings, meta, results, staging, cache), 2,
+                              in_order=True)
     handbook, sheets = _no_batch(), _no_batch()
     for i, (batch, _n) in enumerate(parts):
         _merge(handbook if i < len(whole) else sheets, batch)
