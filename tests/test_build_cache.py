@@ -58,6 +58,20 @@ def build(src: Path, out: Path, cache: Path, capsys) -> tuple[int, int, int, int
     return tuple(int(g) for g in match.groups())  # type: ignore[return-value]
 
 
+def build_fresh(src: Path, cache: Path, tmp_path: Path, jobs: str, recorder: Recorder, capsys,
+                monkeypatch) -> tuple[Path, str]:
+    """A build into a new folder with ``jobs`` processes, the small handbook's sheets forked
+    too; (the folder, the build's stderr)."""
+    from generator import parallel
+
+    monkeypatch.setattr(parallel, "MIN_ITEMS", 2)
+    recorder.drawn.clear()
+    fresh = tmp_path / "fresh"
+    capsys.readouterr()
+    assert main(["build", str(src), "-o", str(fresh), "--cache", str(cache), "-j", jobs]) == 0
+    return fresh, capsys.readouterr().err
+
+
 def mtimes(folder: Path) -> dict[str, int]:
     return {str(p.relative_to(folder)): p.stat().st_mtime_ns
             for p in folder.rglob("*") if p.is_file()}
@@ -202,20 +216,13 @@ def test_render_workers_take_cached_charts_and_report_corrupt_ones(tmp_path, rec
     """Whoever renders the sheets (this process, or forked workers) reads, checks and
     places the cached charts of its pages; the entries found corrupt are counted once in
     the summary, drawn again by the parent and published good."""
-    from generator import parallel
-
     src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
     charts, *_ = build(src, out, cache, capsys)
     entries = sorted(cache.rglob("*.svg"))
     good = {e: e.read_bytes() for e in entries[:2]}
     for entry, data in good.items():
         entry.write_bytes(data[: len(data) // 2])
-    monkeypatch.setattr(parallel, "MIN_ITEMS", 2)  # the small handbook's sheets forked too
-    recorder.drawn.clear()
-    fresh = tmp_path / "fresh"
-    capsys.readouterr()
-    assert main(["build", str(src), "-o", str(fresh), "--cache", str(cache), "-j", jobs]) == 0
-    err = capsys.readouterr().err
+    fresh, err = build_fresh(src, cache, tmp_path, jobs, recorder, capsys, monkeypatch)
     assert f"{charts} charts (2 drawn, {charts - 2} cached, 2 bad cache entries redrawn)" in err
     assert len(recorder.drawn) == 2
     published = {p.read_bytes() for p in (fresh / "charts").glob("*.svg")}
@@ -235,7 +242,6 @@ def test_a_chart_missing_from_the_cache_is_drawn_for_a_kept_sheet(tmp_path, reco
     import pickle
     import sqlite3
 
-    from generator import parallel
     from generator.results_cache import DATABASE
 
     src, out, cache = assemble(tmp_path / "hb"), tmp_path / "out", tmp_path / "cache"
@@ -248,12 +254,7 @@ def test_a_chart_missing_from_the_cache_is_drawn_for_a_kept_sheet(tmp_path, reco
     gone = sorted(cache.rglob("*.svg"))[:3]
     for entry in gone:
         entry.unlink()
-    monkeypatch.setattr(parallel, "MIN_ITEMS", 2)  # the small handbook's sheets forked too
-    recorder.drawn.clear()
-    fresh = tmp_path / "fresh"
-    capsys.readouterr()
-    assert main(["build", str(src), "-o", str(fresh), "--cache", str(cache), "-j", jobs]) == 0
-    err = capsys.readouterr().err
+    fresh, err = build_fresh(src, cache, tmp_path, jobs, recorder, capsys, monkeypatch)
     assert f"{charts} charts (3 drawn, {charts - 3} cached)" in err
     assert " 0 of " in err  # every sheet was taken from the results cache
     assert len(recorder.drawn) == 3
