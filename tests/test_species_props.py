@@ -280,6 +280,24 @@ def test_species_table_gives_each_species_the_bits_it_gets_alone(monkeypatch):
             assert table.basis[i] == alone[sp.id].basis
 
 
+def test_species_enthalpies_are_species_tables_H_bit_for_bit():
+    """The enthalpy-only path (the adiabatic search's) gives species_table's H and
+    extrapolation flags, bit for bit, whatever the batch, sorted or unsorted T."""
+    demo = _demo_species()
+    mixed = demo + [make_species("c", "X", "g", (("X", 1),), dfH=1.0, S=2.0, Cp=30.0),
+                    make_species("n", "Y", "g", (("Y", 1),), dfH=1.0, S=2.0),
+                    make_species("t", "Z", "g", (("Z", 1),), dfH=0.5, S=3.0, cp=(CpPiece(
+                        "table", 250.0, 900.0, table_T=(250.0, 500.0, 900.0),
+                        table_Cp=(20.0, 25.0, 27.0)),))]
+    for T in (np.array([298.15, 250.0, 700.0, 1500.0, 420.0, 5000.0]),
+              np.linspace(100.0, 6000.0, 129), np.array([298.15])):
+        for order in (mixed, mixed[::-1], mixed[::3] + mixed[1::3] + mixed[2::3], mixed[:1]):
+            table = spp.species_table(order, T)
+            H, extrapolated = spp.species_enthalpies(order, T)
+            assert np.array_equal(H, table.H, equal_nan=True)
+            assert np.array_equal(extrapolated, table.extrapolated)
+
+
 def test_polynomial_forms_agree_with_each_models_own_formulas():
     """The batched path's c_n T^n form against cp_models' Horner forms of each kind."""
     from generator.thermo import cp_models

@@ -26,7 +26,7 @@ import numpy as np
 
 from generator.model import Species
 from generator.thermo.equilibrium import extent_bounds
-from generator.thermo.species_props import species_table
+from generator.thermo.species_props import species_enthalpies
 
 T_MIN = 100.0  # K, lower end of the search
 T_MAX = 6000.0  # K, upper end of the search (the usual top of NASA 9-coefficient fits)
@@ -59,18 +59,20 @@ def _enthalpy_curve(amounts: Mapping[str, float], species: Mapping[str, Species]
 def _enthalpies(sets, species: Mapping[str, Species], T: np.ndarray) -> list[tuple]:
     """sum n_i H_i(T) (kJ) and where any species present (n > 0) is extrapolated, for each
     mapping of amounts in ``sets`` over the same ``T``: one species table for every species
-    any of them holds (its rows equal species_functions' values; the search's temperatures
-    are asked for once, so they are not remembered), each sum in its mapping's order."""
+    any of them holds (species_enthalpies: the enthalpy alone, the bits species_functions
+    gives; the search's temperatures are asked for once, so they are not remembered), each
+    sum in its mapping's order."""
     present = [[(sid, n) for sid, n in amounts.items() if n > 0] for amounts in sets]
     members = list(dict.fromkeys(sid for terms in present for sid, _n in terms))
-    table = species_table([species[sid] for sid in members], T.ravel()) if members else None
+    H, flags = species_enthalpies([species[sid] for sid in members], T.ravel()) if members \
+        else (None, None)
     row = {sid: i for i, sid in enumerate(members)}
     out = []
     for terms in present:
         total, extrap = np.zeros_like(T), np.zeros(T.shape, dtype=bool)
         for sid, n in terms:
-            total = total + n * table.H[row[sid]].reshape(T.shape)
-            extrap = extrap | table.extrapolated[row[sid]].reshape(T.shape)
+            total = total + n * H[row[sid]].reshape(T.shape)
+            extrap = extrap | flags[row[sid]].reshape(T.shape)
         out.append((total, extrap))
     return out
 

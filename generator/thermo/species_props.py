@@ -39,7 +39,7 @@ from __future__ import annotations
 
 import os
 from collections import OrderedDict
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, fields
 from functools import lru_cache
 
@@ -443,11 +443,12 @@ def _slices(switches: np.ndarray, T: np.ndarray, n_pieces: int) -> list:
     return [idx == i for i in range(n_pieces)]
 
 
-def _poly_rows(plans: Sequence[_Plan], T: np.ndarray, parts: list, at, Cp: np.ndarray,
-               dH: np.ndarray, dS: np.ndarray, inside: np.ndarray) -> None:
+def _poly_rows(plans: Sequence[_Plan], T: np.ndarray, parts: list, at, Cp: np.ndarray | None,
+               dH: np.ndarray, dS: np.ndarray | None, inside: np.ndarray) -> None:
     """Cp, H - H298 (kJ/mol), S - S298 and the in-range flags of species whose pieces are
     all polynomials and share one switch layout (``parts``: each piece's temperatures, from
-    _slices), evaluated together into rows ``at``."""
+    _slices), evaluated together into rows ``at``; with ``Cp`` and ``dS`` None, H - H298
+    and the flags alone (the same operations for them)."""
     if len(plans) == 1:
         coef, offset = plans[0].coef[None], plans[0].offset[None]
     else:
@@ -455,24 +456,32 @@ def _poly_rows(plans: Sequence[_Plan], T: np.ndarray, parts: list, at, Cp: np.nd
         offset = np.stack([p.offset for p in plans])  # (n, P, 2): H and S offsets
     neg = any(p.negative_powers for p in plans)
     direct = isinstance(at, slice)
+    full = Cp is not None and dS is not None
     for j, sel in enumerate(parts):
         Tj = T[sel]
         if Tj.size == 0:
             continue
         into = direct and isinstance(sel, slice)
         if into:  # into the result arrays themselves
-            cp, h, s = Cp[at, sel], dH[at, sel], dS[at, sel]
+            h = dH[at, sel]
         else:
-            cp, h, s = (np.empty((len(plans), Tj.size)) for _ in range(3))
-        _poly_cp(coef[:, j, 0], Tj, cp, neg)
+            h = np.empty((len(plans), Tj.size))
         _poly_h(coef[:, j, 1], Tj, h, neg)
         h += offset[:, j, 0, None]
-        _poly_s(coef[:, j, 2], Tj, s, neg)
-        s += offset[:, j, 1, None]
+        cell = (at, sel)
         if not into:
             cell = np.ix_(at, sel) if isinstance(at, list) and not isinstance(sel, slice) \
                 else (at, sel)
-            Cp[cell], dH[cell], dS[cell] = cp, h, s
+            dH[cell] = h
+        if not full:
+            continue
+        cp, s = (Cp[at, sel], dS[at, sel]) if into else \
+            (np.empty((len(plans), Tj.size)) for _ in range(2))
+        _poly_cp(coef[:, j, 0], Tj, cp, neg)
+        _poly_s(coef[:, j, 2], Tj, s, neg)
+        s += offset[:, j, 1, None]
+        if not into:
+            Cp[cell], dS[cell] = cp, s
     if all(p.contiguous for p in plans):  # one covered interval per species
         span = np.asarray([p.covered for p in plans])
         inside[at] = (T >= span[:, :1]) & (T <= span[:, 1:])
@@ -530,6 +539,66 @@ def _anchor(sp: Species) -> tuple[float, float]:
     return values
 
 
+def _blocks(species: Sequence[Species], Tf: np.ndarray, other: Callable[[int, Species], None]
+            ) -> tuple[list, list[tuple[float, float] | None]]:
+    """The evaluation blocks (plans, each piece's temperatures, rows) of the species whose
+    pieces are all polynomials, grouped by switch layout, at most BLOCK_ROWS rows a block;
+    ``other(row, species)`` is called for each of the rest.  Also each species' covered
+    range (None without pieces)."""
+    covered: list[tuple[float, float] | None] = [None] * len(species)
+    groups: dict[tuple, list[int]] = {}
+    plans: list[_Plan | None] = []
+    for i, sp in enumerate(species):
+        plan = _plan(sp.cp) if sp.cp else None
+        plans.append(plan)
+        if plan is not None:
+            covered[i] = plan.covered
+        if plan is not None and plan.poly is not None:
+            groups.setdefault((len(plan.pieces), plan.switches.tobytes()), []).append(i)
+        else:
+            other(i, sp)
+    blocks = []
+    for rows in groups.values():
+        first = plans[rows[0]]
+        parts = _slices(first.switches, Tf, len(first.pieces))
+        for b in range(0, len(rows), BLOCK_ROWS):
+            block = rows[b:b + BLOCK_ROWS]
+            at = slice(block[0], block[-1] + 1)
+            if block[-1] - block[0] + 1 != len(block):
+                at = block  # rows not contiguous: fancy indexing
+            blocks.append(([plans[i] for i in block], parts, at))
+    return blocks, covered
+
+
+def species_enthalpies(species: Sequence[Species], T: np.ndarray | Sequence[float]
+                       ) -> tuple[np.ndarray, np.ndarray]:
+    """H (kJ/mol, on the scale H(298.15 K) = dfH) and the extrapolation flags of every
+    species in ``species`` at the 1-D ``T``: species_table's ``H`` and ``extrapolated``
+    by the same operations, so the same bits, without Cp, S, G and gef (for searches
+    that need the enthalpy alone, as generator.thermo.adiabatic's)."""
+    Tf = np.asarray(T, dtype=float).ravel()
+    if np.any(Tf <= 0.0):
+        raise ValueError("temperatures must be positive (K)")
+    n = len(species)
+    dH, H = np.empty((n, Tf.size)), np.empty((n, Tf.size))
+    extrapolated = np.empty((n, Tf.size), dtype=bool)
+
+    def other(i: int, sp: Species) -> None:
+        _cp, dH[i], _s, extrapolated[i], _basis = _other_row(sp, Tf)
+
+    blocks, _covered = _blocks(species, Tf, other)
+    for block_plans, parts, at in blocks:
+        _poly_rows(block_plans, Tf, parts, at, None, dH, None, extrapolated)
+    np.logical_not(extrapolated, out=extrapolated)
+    at_ref = np.abs(Tf - T_REF) < T_REF_TOL
+    if at_ref.any():
+        dH[:, at_ref] = 0.0
+        extrapolated[:, at_ref] = False
+    dfH = np.asarray([_anchor(sp)[0] for sp in species], dtype=float).reshape(n, 1)
+    np.add(dfH, dH, out=H)
+    return H, extrapolated
+
+
 def species_table(species: Sequence[Species], T: np.ndarray | Sequence[float]
                   ) -> SpeciesTable:
     """Cp, H - H298, H, S, G and gef of every species in ``species`` at the 1-D ``T``.
@@ -547,28 +616,11 @@ def species_table(species: Sequence[Species], T: np.ndarray | Sequence[float]
     Cp, dH, H, S, G, gef = (np.empty((n, Tf.size)) for _ in range(6))
     extrapolated = np.empty((n, Tf.size), dtype=bool)
     basis: list[str] = ["cp-pieces"] * n
-    covered: list[tuple[float, float] | None] = [None] * n
-    groups: dict[tuple, list[int]] = {}
-    plans: list[_Plan | None] = []
-    for i, sp in enumerate(species):
-        plan = _plan(sp.cp) if sp.cp else None
-        plans.append(plan)
-        if plan is not None:
-            covered[i] = plan.covered
-        if plan is not None and plan.poly is not None:
-            groups.setdefault((len(plan.pieces), plan.switches.tobytes()), []).append(i)
-        else:
-            Cp[i], dH[i], S[i], extrapolated[i], basis[i] = _other_row(sp, Tf)
-    blocks = []
-    for rows in groups.values():
-        first = plans[rows[0]]
-        parts = _slices(first.switches, Tf, len(first.pieces))
-        for b in range(0, len(rows), BLOCK_ROWS):
-            block = rows[b:b + BLOCK_ROWS]
-            at = slice(block[0], block[-1] + 1)
-            if block[-1] - block[0] + 1 != len(block):
-                at = block  # rows not contiguous: fancy indexing
-            blocks.append(([plans[i] for i in block], parts, at))
+
+    def other(i: int, sp: Species) -> None:
+        Cp[i], dH[i], S[i], extrapolated[i], basis[i] = _other_row(sp, Tf)
+
+    blocks, covered = _blocks(species, Tf, other)
     at_ref = np.abs(Tf - T_REF) < T_REF_TOL
     anchors = np.asarray([_anchor(sp) for sp in species], dtype=float).reshape(n, 2)
     dfH, S298 = anchors[:, :1], anchors[:, 1:]
