@@ -13,6 +13,8 @@ from __future__ import annotations
 import gc
 import multiprocessing
 import os
+import pickle
+import queue
 import threading
 from collections.abc import Callable, Sequence
 from typing import Any
@@ -84,10 +86,15 @@ def _run_chunk(items: Sequence) -> list:
 
 
 def fork_map(fn: Callable[[Any, Any], Any], items: Sequence, jobs: int, shared: Any = None,
-             min_items: int | None = None, in_order: bool = False) -> list:
+             min_items: int | None = None, in_order: bool = False,
+             receive: Callable[[Any], Any] | None = None) -> list:
     """``[fn(shared, x) for x in items]``; ``min_items`` defaults to MIN_ITEMS, read at each
     call.  The items go out in interleaved chunks (even loads), or with ``in_order`` one by
-    one in their order (items the caller has sized already, as guided makes them)."""
+    one in their order (items the caller has sized already, as guided makes them).
+    This process works on the chunks too, beside ``jobs`` - 1 forked workers (each takes
+    the next chunk when it finishes one), so what it makes itself is never sent between
+    processes.  ``receive(result)`` is applied here to each result a worker sends back,
+    not to results made in this process."""
     global _TASK
     items = list(items)
     if min_items is None:
@@ -103,9 +110,7 @@ def fork_map(fn: Callable[[Any, Any], Any], items: Sequence, jobs: int, shared: 
     # pages, which would copy them.
     gc.freeze()
     try:
-        with multiprocessing.get_context("fork").Pool(jobs) as pool:
-            # one chunk per dispatch: a worker that finishes early takes the next one
-            parts = pool.map(_run_chunk, chunks, chunksize=1)
+        parts = _shared_run(chunks, jobs - 1, receive)
     finally:
         _TASK = None
         gc.unfreeze()
@@ -113,3 +118,97 @@ def fork_map(fn: Callable[[Any, Any], Any], items: Sequence, jobs: int, shared: 
     for i, part in enumerate(parts):
         results[i::n_chunks] = part
     return results
+
+
+def _take(counter) -> int:
+    """The index of the next chunk to work on (shared by this process and its workers)."""
+    with counter.get_lock():
+        i = counter.value
+        counter.value = i + 1
+    return i
+
+
+def _work(chunks: Sequence[Sequence], counter, conn) -> None:
+    """A forked worker: take chunks until none is left, sending each one's results back
+    as (index, results, None), a failure as (index, None, exception)."""
+    while (i := _take(counter)) < len(chunks):
+        try:
+            message = pickle.dumps((i, _run_chunk(chunks[i]), None), protocol=5)
+        except BaseException as exc:  # noqa: BLE001 - every failure reaches the caller
+            try:
+                message = pickle.dumps((i, None, exc), protocol=5)
+            except Exception:  # noqa: BLE001 - an exception that does not pickle
+                message = pickle.dumps((i, None, RuntimeError(repr(exc))), protocol=5)
+            conn.send_bytes(message)
+            break
+        conn.send_bytes(message)
+    conn.close()
+
+
+def _shared_run(chunks: Sequence[Sequence], workers: int,
+                receive: Callable[[Any], Any] | None) -> list[list]:
+    """Every chunk's results, in chunk order, made by this process and ``workers`` forked
+    ones that take chunks from one shared counter.  A thread per worker reads what it
+    sends (so a worker never waits on a full pipe while this process works); the results
+    that arrived are taken in between this process's own chunks."""
+    ctx = multiprocessing.get_context("fork")
+    counter = ctx.Value("q", 0)
+    procs, conns, readers = [], [], []
+    finished = False
+    try:
+        for _ in range(workers):
+            reader, writer = ctx.Pipe(duplex=False)
+            proc = ctx.Process(target=_work, args=(chunks, counter, writer), daemon=True)
+            proc.start()
+            writer.close()
+            procs.append(proc)
+            conns.append(reader)
+        arrived: queue.SimpleQueue = queue.SimpleQueue()
+        for conn in conns:
+            readers.append(threading.Thread(target=_read_all, args=(conn, arrived),
+                                            daemon=True, name="thermofolio-fork-map-reader"))
+            readers[-1].start()
+        parts: list[list | None] = [None] * len(chunks)
+        left = len(chunks)
+        open_conns = len(conns)
+
+        def take(message: bytes | None) -> None:
+            nonlocal left, open_conns
+            if message is None:
+                open_conns -= 1
+                return
+            i, part, exc = pickle.loads(message)
+            if exc is not None:
+                raise exc
+            parts[i] = part if receive is None else [receive(r) for r in part]
+            left -= 1
+
+        while (i := _take(counter)) < len(chunks):
+            parts[i] = _run_chunk(chunks[i])
+            left -= 1
+            while not arrived.empty():
+                take(arrived.get())
+        while left:
+            if not open_conns:
+                raise RuntimeError("a worker process ended without sending its results")
+            take(arrived.get())
+        finished = True
+        return parts  # type: ignore[return-value]
+    finally:
+        for proc in procs:
+            if not finished:  # a failure here or in a worker: the rest of the work is moot
+                proc.terminate()
+            proc.join()
+        for thread in readers:  # each ends at its worker's end of the pipe: the next
+            thread.join()  # fork_map must find this process running one thread again
+        for conn in conns:
+            conn.close()
+
+
+def _read_all(conn, arrived: queue.SimpleQueue) -> None:
+    """Put every message ``conn`` brings into ``arrived``, then None when it closes."""
+    try:
+        while True:
+            arrived.put(conn.recv_bytes())
+    except (EOFError, OSError):
+        arrived.put(None)

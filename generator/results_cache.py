@@ -94,7 +94,7 @@ class ResultStore(Protocol):
 
     def get(self, kind: str, item: str, digest: str) -> Any: ...
 
-    def put(self, kind: str, item: str, digest: str, result: Any) -> None: ...
+    def put(self, kind: str, item: str, digest: str, result: Any) -> bytes | None: ...
 
 
 class ResultsCache:
@@ -224,15 +224,18 @@ class ResultsCache:
         self.hits += 1
         return result
 
-    def put(self, kind: str, item: str, digest: str, result) -> None:
+    def put(self, kind: str, item: str, digest: str, result) -> bytes:
+        """Store ``result`` for ``item`` under ``digest``; its pickled payload (which
+        kept_or_made's workers send back instead of pickling the result a second time)."""
         _check_kind(kind)
         payload = pickle.dumps(result, protocol=5)
         row = (kind, item, self.key(digest), hashlib.sha256(payload).hexdigest(), len(payload),
                payload)
         if self._pending is not None and self._pending[0] == os.getpid():
             self._pending[1].append(row)
-            return
+            return payload
         self._write([row])
+        return payload
 
     @contextlib.contextmanager
     def batch(self) -> Iterator[ResultsCache]:
@@ -336,19 +339,36 @@ def kept_or_made(results: ResultStore | None, kind: str, digests: Mapping[str, s
     if todo and prepare is not None:
         prepare(todo)
 
-    def make_and_keep(shared_: Any, chunk: list[str]) -> list:
+    parent = os.getpid()
+
+    def make_and_keep(shared_: Any, chunk: list[str]) -> list | Payloads:
         with batched(results):  # a chunk's entries in one transaction
             made = [make_one(shared_, item) for item in chunk]
-            if results is not None:
-                for item, result in zip(chunk, made, strict=True):
-                    results.put(kind, item, digests[item], result)
+            payloads = [] if results is None else [
+                results.put(kind, item, digests[item], result)
+                for item, result in zip(chunk, made, strict=True)]
+        if os.getpid() != parent and payloads and all(isinstance(p, bytes) for p in payloads):
+            return Payloads(payloads)  # the bytes just stored: no second pickling to send
         return made
 
     chunks = split(todo, jobs)
-    for chunk, made in zip(chunks, fork_map(make_and_keep, chunks, jobs, shared, 2),
-                           strict=True):
+    for chunk, made in zip(chunks, fork_map(make_and_keep, chunks, jobs, shared, 2,
+                                            receive=_unpickled), strict=True):
         done.update(zip(chunk, made, strict=True))
     return {item: done[item] for item in digests}
+
+
+def _unpickled(made: list | Payloads) -> list:
+    """A chunk's results as a worker sent them back (see make_and_keep)."""
+    if isinstance(made, Payloads):
+        return [pickle.loads(payload) for payload in made]
+    return made
+
+
+class Payloads(tuple):
+    """A forked worker's results as the pickled payloads it stored in the results cache:
+    sent back as they are, so each result is pickled once (the same objects a cache hit
+    gives)."""
 
 
 def batched(results: ResultStore | None) -> contextlib.AbstractContextManager:

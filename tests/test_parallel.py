@@ -19,9 +19,79 @@ def test_results_keep_the_order_of_the_items_whatever_the_split():
     many = parallel.fork_map(_square_and_pid, items, 3, 3, min_items=2)
     assert [r for r, _pid in one] == [3 * x * x for x in items]
     assert [r for r, _pid in many] == [r for r, _pid in one]
-    if parallel.can_fork():
-        assert os.getpid() not in {pid for _r, pid in many}  # really done elsewhere
     assert {pid for _r, pid in one} == {os.getpid()}
+
+
+def _slow_square_and_pid(shared, x):
+    import time
+
+    time.sleep(0.02)  # long enough for every process to take some of the work
+    return shared * x * x, os.getpid()
+
+
+@pytest.mark.skipif(not parallel.can_fork(), reason="the platform does not fork")
+def test_this_process_and_its_workers_share_the_chunks():
+    items = list(range(40))
+    many = parallel.fork_map(_slow_square_and_pid, items, 3, 2, min_items=2)
+    assert [r for r, _pid in many] == [2 * x * x for x in items]
+    pids = {pid for _r, pid in many}
+    assert os.getpid() in pids and len(pids) == 3  # this process and two forked workers
+    assert parallel.can_fork()  # its reading threads are gone: the next stage forks again
+
+
+def _pickled_result(shared, x):
+    import pickle
+
+    return pickle.dumps(x * shared)
+
+
+@pytest.mark.skipif(not parallel.can_fork(), reason="the platform does not fork")
+def test_receive_applies_to_the_results_workers_send_only():
+    import pickle
+
+    items = list(range(30))
+    seen = []
+
+    def receive(r):
+        seen.append(r)
+        return ("received", pickle.loads(r))
+
+    out = parallel.fork_map(_slow_bytes, items, 2, 5, min_items=2, in_order=True,
+                            receive=receive)
+    for x, r in zip(items, out, strict=True):
+        assert r == ("received", 5 * x) or r == pickle.dumps(5 * x)
+    assert seen and len(seen) < len(items)  # some made here, some sent by the worker
+
+
+def _slow_bytes(shared, x):
+    import time
+
+    time.sleep(0.02)
+    return _pickled_result(shared, x)
+
+
+def _dies(_shared, x):
+    if x == 5 and os.getpid() != _PARENT[0]:
+        os._exit(7)  # a worker killed mid-work: nothing sent back
+    import time
+
+    time.sleep(0.01)
+    return x
+
+
+_PARENT = [os.getpid()]
+
+
+@pytest.mark.skipif(not parallel.can_fork(), reason="the platform does not fork")
+def test_a_worker_that_dies_is_an_error_not_a_hang():
+    _PARENT[0] = os.getpid()
+    items = list(range(12))
+    try:
+        out = parallel.fork_map(_dies, items, 2, min_items=2, in_order=True)
+    except RuntimeError as exc:
+        assert "ended without sending" in str(exc)
+    else:  # this process took item 5 itself: then every result is here
+        assert out == items
 
 
 def test_in_order_results_keep_the_order_too():
