@@ -43,54 +43,70 @@ def _yaml_files(folder: Path) -> list[Path]:
     return sorted(p for p in folder.iterdir() if p.suffix in (".yaml", ".yml") and p.is_file())
 
 
-def _read_items(folder: Path, read, kind: str, findings: list[Finding],
-               results: ResultStore | None = None, jobs: int = 1) -> dict:
-    """One item per YAML file in ``folder``, by id; a second file with an id is an error.
-    With ``results``, each file's item and findings are kept under the digest of its
-    path and bytes (the reader sees nothing else), and reused while they are unchanged;
-    the files still to read are parsed by ``jobs`` forked processes."""
-    items: dict = {}
-    for item, own in _readings(_yaml_files(folder), read, kind, results, jobs):
-        findings += own
-        if item is None:
-            continue
-        if item.id in items:
-            findings.append(error("duplicate-id", f"duplicate {kind} id '{item.id}' (first in "
-                                  f"{items[item.id].path})", item.location,
-                                  hint="ids must be unique across the handbook"))
-            continue
-        items[item.id] = item
-    return items
+def _read_items(folders: list[tuple[Path, object, str]], findings: list[Finding],
+               results: ResultStore | None = None, jobs: int = 1) -> list[dict]:
+    """For each (folder, reader, kind): one item per YAML file in the folder, by id; a
+    second file with an id is an error.  With ``results``, each file's item and findings
+    are kept under the digest of its kind, path and bytes (the reader sees nothing else),
+    and reused while they are unchanged; the files still to read, of every folder at
+    once, are parsed by ``jobs`` processes (one split, so one wait for the slowest)."""
+    readings = _readings([(_yaml_files(folder), read, kind) for folder, read, kind in folders],
+                         results, jobs)
+    out: list[dict] = []
+    for (_folder, _read, kind), group in zip(folders, readings, strict=True):
+        items: dict = {}
+        for item, own in group:
+            findings += own
+            if item is None:
+                continue
+            if item.id in items:
+                findings.append(error("duplicate-id", f"duplicate {kind} id '{item.id}' "
+                                      f"(first in {items[item.id].path})", item.location,
+                                      hint="ids must be unique across the handbook"))
+                continue
+            items[item.id] = item
+        out.append(items)
+    return out
 
 
-def _readings(files: list[Path], read, kind: str, results: ResultStore | None,
-              jobs: int) -> list[tuple]:
-    """(item or None, the file's findings) of each file, in order."""
+def _readings(groups: list[tuple[list[Path], object, str]], results: ResultStore | None,
+              jobs: int) -> list[list[tuple]]:
+    """For each (files, reader, kind): (item or None, the file's findings) of each file, in
+    order."""
     from generator.results_cache import kept_or_made
 
-    out: list[tuple | None] = []
-    raws: dict[str, tuple[bytes, str]] = {}
+    outs: list[list[tuple | None]] = []
+    raws: dict[str, tuple[bytes, str, object]] = {}
     digests: dict[str, str] = {}
-    for file in files:
-        path = display_path(file)
-        raw, own = read_source_bytes(file, path)
-        if raw is None:
-            out.append((None, own))
-            continue
-        name = f"{kind}:{path}"
-        h = hashlib.sha256(f"{kind}\0{path}\0".encode())
-        h.update(raw)
-        digests[name], raws[name] = h.hexdigest(), (raw, path)
-        out.append(None)
-    done = kept_or_made(results, "source", digests, tuple, _parse_item, (raws, read), jobs)
-    names = iter(digests)
-    return [r if r is not None else done[next(names)] for r in out]
+    names: list[list[str]] = []
+    for files, read, kind in groups:
+        out: list[tuple | None] = []
+        own_names: list[str] = []
+        for file in files:
+            path = display_path(file)
+            raw, own = read_source_bytes(file, path)
+            if raw is None:
+                out.append((None, own))
+                continue
+            name = f"{kind}:{path}"
+            h = hashlib.sha256(f"{kind}\0{path}\0".encode())
+            h.update(raw)
+            digests[name], raws[name] = h.hexdigest(), (raw, path, read)
+            own_names.append(name)
+            out.append(None)
+        outs.append(out)
+        names.append(own_names)
+    done = kept_or_made(results, "source", digests, tuple, _parse_item, raws, jobs)
+    readings = []
+    for out, own_names in zip(outs, names, strict=True):
+        taken = iter(own_names)
+        readings.append([r if r is not None else done[next(taken)] for r in out])
+    return readings
 
 
-def _parse_item(shared: tuple, name: str) -> tuple:
+def _parse_item(raws: dict, name: str) -> tuple:
     """(item or None, findings) of one file's bytes."""
-    raws, read = shared
-    raw, path = raws[name]
+    raw, path, read = raws[name]
     doc, own = parse_yaml_bytes(raw, path)
     own = list(own)
     item = None
@@ -143,10 +159,11 @@ def load_handbook(root: Path, results: ResultStore | None = None, jobs: int = 1
             else:
                 references[ref.key] = ref
 
-    species: dict[str, Species] = _read_items(root / "species", read_species, "species",
-                                              findings, results, jobs)
-    raw_reactions: dict[str, RawReaction] = _read_items(root / "reactions", read_reaction,
-                                                        "reaction", findings, results, jobs)
+    species: dict[str, Species]
+    raw_reactions: dict[str, RawReaction]
+    species, raw_reactions = _read_items([(root / "species", read_species, "species"),
+                                          (root / "reactions", read_reaction, "reaction")],
+                                         findings, results, jobs)
 
     reactions = resolve_reactions(raw_reactions, species, findings)
     if settings is not None:
