@@ -5,10 +5,10 @@ machine: the cold full build; the floor (the same charts drawn by bare matplotli
 same number of processes) and the ratio of the two; the no-change rebuild; the rebuild after
 editing one species' dfH (files rewritten, charts redrawn); the pages-only build (charts
 cached, fresh output folder) against a generic documentation site generator (mkdocs, the
-``bench`` extra) building as many markdown pages of similar size; peak memory of the build's
-process tree; output size and the median size of a species sheet with its charts; engine
-evaluation of 1,000 species at 1,000 temperatures; and the cost of math-text labels against
-plain Unicode labels.
+``bench`` extra) building as many markdown pages of similar size, the two kinds of run
+alternating; peak memory of the build's process tree; output size and the median size of a
+species sheet with its charts; engine evaluation of 1,000 species at 1,000 temperatures;
+and the cost of math-text labels against plain Unicode labels.
 """
 
 from __future__ import annotations
@@ -242,7 +242,9 @@ def label_rendering(n: int = 12) -> dict:
 # --- the generic generator -----------------------------------------------------------------
 
 
-def mkdocs_seconds(n_pages: int, page_bytes: int, work: Path) -> float | None:
+def mkdocs_site(n_pages: int, page_bytes: int, work: Path) -> Path | None:
+    """A mkdocs project of ``n_pages`` markdown pages that grow into about ``page_bytes``
+    of HTML each; None when mkdocs is not installed."""
     if shutil.which("mkdocs") is None:
         return None
     site = work / "mkdocs"
@@ -257,10 +259,16 @@ def mkdocs_seconds(n_pages: int, page_bytes: int, work: Path) -> float | None:
         while len(text) < page_bytes // 3:  # markdown grows about threefold into HTML
             text += row
         (docs / f"page-{i:05d}.md").write_text(text, encoding="utf-8")
+    return site
+
+
+def mkdocs_seconds(site: Path, run: int) -> float:
+    """One mkdocs build of ``site`` into a fresh folder of its own (as each pages-only
+    build gets one), so no run pays for emptying the one before."""
     quiet_disk()
     start = time.perf_counter()
-    subprocess.run(["mkdocs", "build", "-q", "-f", str(site / "mkdocs.yml")], check=True,
-                   capture_output=True)
+    subprocess.run(["mkdocs", "build", "-q", "-f", str(site / "mkdocs.yml"), "-d",
+                    str(site / f"site-{run}")], check=True, capture_output=True)
     return time.perf_counter() - start
 
 
@@ -385,10 +393,22 @@ def main(argv: list[str] | None = None) -> int:
                 if aside.exists():
                     aside.rename(path)
 
-    r["pages_only"] = repeated(args.repeat, pages_only)
+    # The pages-only builds and the generic generator's builds alternate, so that both
+    # meet the same stretches of a machine whose speed wanders from minute to minute; each
+    # figure is the median of its runs.
     r.update(output_sizes(out))
-    mk = mkdocs_seconds(r["html_pages"], int(r["median_page_KB"] * 1024), work)
+    site = mkdocs_site(r["html_pages"], int(r["median_page_KB"] * 1024), work)
+    page_runs, mk_runs = [], []
+    for i in range(args.repeat):
+        page_runs.append(pages_only(i))
+        if site is not None:
+            mk_runs.append(round(mkdocs_seconds(site, i), 3))
+    page_runs.sort(key=lambda run: run["seconds"])
+    r["pages_only"] = {**page_runs[len(page_runs) // 2],
+                       "runs_seconds": [run["seconds"] for run in page_runs]}
+    mk = statistics.median(mk_runs) if mk_runs else None
     r["mkdocs_seconds"] = None if mk is None else round(mk, 3)
+    r["mkdocs_runs_seconds"] = sorted(mk_runs)
     r["mkdocs_over_pages_only"] = None if mk is None else round(mk / r["pages_only"]["seconds"],
                                                                  2)
     r["engine_1000x1000_seconds"] = engine_seconds(src)
@@ -422,8 +442,9 @@ def _table(r: dict) -> None:
          f"({r['edit_one_species']['reactions_using_it']} reactions use it)"),
         ("pages-only build, charts cached (median)", f"{r['pages_only']['seconds']:.2f} s "
          f"(runs {r['pages_only']['runs_seconds']})"),
-        ("generic generator, same page count", "not installed" if r["mkdocs_seconds"] is None
-         else f"{r['mkdocs_seconds']:.2f} s ({r['mkdocs_over_pages_only']}x)"),
+        ("generic generator, same page count (median)", "not installed"
+         if r["mkdocs_seconds"] is None else f"{r['mkdocs_seconds']:.2f} s "
+         f"(runs {r['mkdocs_runs_seconds']}; {r['mkdocs_over_pages_only']}x)"),
         ("peak memory (cold, process tree)", f"{r['cold']['peak_pss_MB']:.0f} MB PSS "
          f"({r['cold']['peak_rss_MB']:.0f} MB summed RSS)"),
         ("output size", f"{r['output_MB']} MB"),
