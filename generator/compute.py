@@ -308,4 +308,5 @@ def compute_handbook(handbook: Handbook, today: dt.date | None = None, jobs: int
 def _with_checks(r: ReactionResult, checks) -> ReactionResult:
     from dataclasses import replace
 
-    return replace(r, checks=tuple(checks))
+    checks = tuple(checks)
+    return r if checks == r.checks else replace(r, checks=checks)

@@ -91,8 +91,12 @@ def to_standard_pressure(handbook: Handbook, element_refs: Mapping[str, Species]
                         values.append(v)
                         continue
                 values.append(_convert(v, name, r[0], dn, T_REF, r[1], p_std))
-            standard[name] = dataclasses.replace(q, values=tuple(values))
-        species[sid] = dataclasses.replace(sp, standard=standard)
+            # an object with nothing moved is kept as it is (copying every one cost more
+            # than the whole conversion in a large handbook)
+            standard[name] = q if all(a is b for a, b in zip(values, q.values, strict=True)) \
+                else dataclasses.replace(q, values=tuple(values))
+        unchanged = all(standard[name] is q for name, q in sp.standard.items())
+        species[sid] = sp if unchanged else dataclasses.replace(sp, standard=standard)
 
     reactions: dict[str, Reaction] = {}
     for rid, rx in handbook.reactions.items():
@@ -105,5 +109,6 @@ def to_standard_pressure(handbook: Handbook, element_refs: Mapping[str, Species]
                 continue
             measured.append(dataclasses.replace(
                 m, value=_convert(m.value, m.quantity, r[0], dn, m.T, r[1], p_std)))
-        reactions[rid] = dataclasses.replace(rx, measured=tuple(measured))
+        reactions[rid] = rx if all(a is b for a, b in zip(measured, rx.measured, strict=True)) \
+            else dataclasses.replace(rx, measured=tuple(measured))
     return dataclasses.replace(handbook, species=species, reactions=reactions)
