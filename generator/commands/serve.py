@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import argparse
 import html
-import http.server
 import io
 import sys
 import threading
@@ -18,8 +17,12 @@ import time
 import urllib.parse
 from contextlib import redirect_stderr
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from generator.caution import CAUTION
+
+if TYPE_CHECKING:  # http.server is imported when a preview starts, not by every command
+    import http.server
 
 POLL_SECONDS = 0.5
 
@@ -104,6 +107,8 @@ def resolve_inside(root: Path, url_path: str) -> Path | None:
 
 
 def make_handler(preview: Preview):
+    import http.server
+
     class Handler(http.server.BaseHTTPRequestHandler):
         server_version = "thermofolio-preview"
 
@@ -143,6 +148,8 @@ def start(sources: Path, output: Path, port: int) -> tuple[http.server.HTTPServe
     preview = Preview(sources, output)
     first_seen = preview.fingerprint()  # before building: an edit during the build counts
     preview.build()
+    import http.server
+
     server = http.server.ThreadingHTTPServer(("127.0.0.1", port), make_handler(preview))
     stop = threading.Event()
 
